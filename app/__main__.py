@@ -1,0 +1,3 @@
+from kinestat.app.cli import main
+
+raise SystemExit(main())
