@@ -1,0 +1,202 @@
+"""Classify a scheme: unstable / statically determinate / indeterminate, by rank.
+
+``classify(scheme)`` assembles the equilibrium matrix (:mod:`.assemble`), decides its
+rank (:mod:`.rank`), splits mechanisms and self-stress into internal and support parts
+(Pellegrino & Calladine 1986), makes the hand count (:mod:`.counting`), and explains in
+words any way the count would mislead.
+
+* ``verdict`` is "unstable" iff m > 0, else "determinate" iff s == 0, else "indeterminate".
+* ``internal.self_stress`` = states that need no support reaction = dim null(A_members).
+* ``internal.mechanisms`` = mechanisms of the unsupported structure beyond the 3 rigid-body
+  motions of each connected piece.
+* ``rigid_body_mechanisms`` = 3 - rank(A^T T), T the rigid-body motions of the whole
+  scheme (motions the supports fail to stop when the structure itself is rigid).
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .assemble import Finding, System, assemble
+from .counting import HandCount, hand_count
+from .model import Scheme
+from .rank import NEAR_GAP, NEAR_RTOL, RankResult, decide_rank, null_space_basis
+
+
+@dataclass(frozen=True)
+class Mode:
+    """One mechanism mode: node velocities (normalised so the largest is 1)."""
+
+    displacements: dict[str, tuple[float, float]]
+    rotations: dict[str, float]
+    #: relative motion at releases (member id, detail) -> value
+    release_gaps: dict[tuple[str, str], float]
+    kind: str  # "rigid-body" or "internal"
+
+
+@dataclass
+class Classification:
+    verdict: str
+    mechanisms: int
+    self_stress: int
+    internal_mechanisms: int
+    internal_self_stress: int
+    rigid_body_mechanisms: int
+    count: HandCount
+    explanations: list[str]
+    warnings: list[Finding]
+    modes: list[Mode]
+    system: System
+    rank: RankResult
+    mechanism_basis: np.ndarray | None = None
+    self_stress_basis: np.ndarray | None = None
+    remarks: list[Finding] = field(default_factory=list)
+    extra: dict = field(default_factory=dict)
+
+    def summary(self) -> str:
+        if self.verdict == "unstable":
+            k = self.mechanisms
+            return f"Unstable — {k} mechanism{'s' if k != 1 else ''}"
+        if self.verdict == "determinate":
+            return "Stable — statically determinate"
+        return f"Stable — indeterminate to degree {self.self_stress}"
+
+    def split_text(self) -> str:
+        ext_s = self.self_stress - self.internal_self_stress
+        if self.verdict == "unstable":
+            return (f"{self.internal_mechanisms} internal mechanism(s), "
+                    f"{self.mechanisms - self.internal_mechanisms} at the supports")
+        return f"{self.internal_self_stress} inside the structure, {ext_s} at the supports"
+
+    def to_json(self) -> dict:
+        out = {
+            "verdict": self.verdict,
+            "summary": self.summary(),
+            "mechanisms": self.mechanisms,
+            "self_stress": self.self_stress,
+            "internal": {"mechanisms": self.internal_mechanisms, "self_stress": self.internal_self_stress},
+            "supports": {"mechanisms": self.mechanisms - self.internal_mechanisms,
+                         "self_stress": self.self_stress - self.internal_self_stress},
+            "rigid_body_mechanisms": self.rigid_body_mechanisms,
+            "count": self.count.to_json(),
+            "explanations": list(self.explanations),
+            "warnings": [w.text for w in self.warnings],
+            "warning_items": [list(w.items) for w in self.warnings],
+            "remarks": [r.text for r in self.remarks],
+            "rank": {"rank": self.rank.rank, "rows": self.system.shape[0], "cols": self.system.shape[1],
+                     "route": self.rank.route,
+                     "smallest_kept_sigma_ratio": _num(self.rank.sigma_min_kept)},
+        }
+        out.update(self.extra)
+        return out
+
+
+def _num(x: float):
+    return None if x is None or not math.isfinite(x) else float(x)
+
+
+def rigid_body_fields(system: System, scheme: Scheme) -> np.ndarray:
+    """The three rigid-body motions of the whole scheme as row-space vectors (rows x 3)."""
+    T = np.zeros((system.shape[0], 3))
+    for nid, (iu, iv, it) in system.node_dof.items():
+        x, y = scheme.node_xy(nid)
+        T[iu] = (1.0, 0.0, -y)
+        T[iv] = (0.0, 1.0, x)
+        if it is not None:
+            T[it] = (0.0, 0.0, system.lref)
+    return T
+
+
+def _mode_from_vector(vec: np.ndarray, system: System, kind: str) -> Mode:
+    disp, rot, gaps = {}, {}, {}
+    scale = 0.0
+    for nid, (iu, iv, it) in system.node_dof.items():
+        scale = max(scale, math.hypot(vec[iu], vec[iv]))
+    if scale < 1e-12 * max(1.0, float(np.abs(vec).max())):
+        scale = float(np.abs(vec).max()) or 1.0
+    for nid, (iu, iv, it) in system.node_dof.items():
+        disp[nid] = (float(vec[iu] / scale), float(vec[iv] / scale))
+        if it is not None:
+            rot[nid] = float(vec[it] / scale / system.lref)
+    for r, (kind_r, item, detail) in enumerate(system.rows):
+        if kind_r == "release":
+            gaps[(item, detail)] = float(vec[r] / scale)
+    return Mode(disp, rot, gaps, kind)
+
+
+def _canonical_sign(B: np.ndarray) -> np.ndarray:
+    """Fix the sign of each column: its largest-magnitude entry positive."""
+    B = B.copy()
+    for k in range(B.shape[1]):
+        i = int(np.argmax(np.abs(B[:, k])))
+        if B[i, k] < 0:
+            B[:, k] = -B[:, k]
+    return B
+
+
+def classify(scheme: Scheme, *, bases: bool = False, max_modes: int = 12) -> Classification:
+    """Classify ``scheme``; ``bases=True`` also returns both null-space bases."""
+    system = assemble(scheme)
+    A = system.A
+    rows, cols = A.shape
+    rr = decide_rank(A, want_mech=True, want_stress=bases)
+    m, s = rr.m, rr.s
+
+    # support split: self-stress without reactions; mechanisms of the free structure
+    member_cols = [c for c, (k, _, _) in enumerate(system.cols) if k != "reaction"]
+    A_mem = A[:, member_cols]
+    rr_free = decide_rank(A_mem, want_mech=False) if A_mem.shape[1] else None
+    rank_free = rr_free.rank if rr_free is not None else 0
+    internal_s = len(member_cols) - rank_free
+    internal_m = max(0, (rows - rank_free) - 3 * len(system.pieces))
+
+    T = rigid_body_fields(system, scheme)
+    AtT = A.T @ T
+    sv = np.linalg.svd(AtT, compute_uv=False) if AtT.size else np.zeros(0)
+    tol = 1e-9 * max(1.0, float(sv.max()) if sv.size else 1.0)
+    rigid_m = 3 - int(np.count_nonzero(sv > tol)) if rows else 0
+    if len(system.pieces) != 1:
+        rigid_m = min(rigid_m, m)
+
+    verdict = "unstable" if m > 0 else ("determinate" if s == 0 else "indeterminate")
+    count = hand_count(scheme, system)
+
+    basis = rr.mech_basis
+    if m > 0 and (basis is None or basis.shape[1] != m) and m <= 200:
+        from .rank import dense_rank
+        basis = dense_rank(A, want_stress=False).mech_basis
+    modes: list[Mode] = []
+    if m > 0 and basis is not None and basis.shape[1] == m:
+        basis = _order_modes(basis, T)
+        basis = _canonical_sign(basis)
+        n_rigid = rigid_m
+        for k in range(min(m, max_modes)):
+            modes.append(_mode_from_vector(basis[:, k], system, "rigid-body" if k < n_rigid else "internal"))
+
+    stress_basis = None
+    if bases or (m > 0 and s > 0 and cols <= 2000):
+        stress_basis = rr.stress_basis if rr.stress_basis is not None and rr.stress_basis.shape[1] == s \
+            else null_space_basis(A, s)
+
+    warnings = [f for f in system.findings if f.kind == "warning"]
+    remarks = [f for f in system.findings if f.kind != "warning"]
+    result = Classification(verdict, m, s, internal_m, internal_s, rigid_m, count, [], warnings, modes,
+                            system, rr, basis if bases or m else None, stress_basis, remarks)
+    from .explain import explain, near_singular_findings
+    result.explanations = explain(scheme, result)
+    result.warnings.extend(near_singular_findings(scheme, result))
+    return result
+
+
+def _order_modes(basis: np.ndarray, T: np.ndarray) -> np.ndarray:
+    """Rotate the mechanism basis so that rigid-body motions come first."""
+    m = basis.shape[1]
+    if m == 0:
+        return basis
+    # component of each basis combination inside span(T)
+    Q, _ = np.linalg.qr(T) if T.size else (np.zeros((basis.shape[0], 0)), None)
+    P = Q.T @ basis  # 3 x m
+    _, sig, Vt = np.linalg.svd(P, full_matrices=True)
+    return basis @ Vt.T

@@ -1,0 +1,231 @@
+"""Words for a checker: why the hand count misleads, and near-singular geometry.
+
+The hand count equals s - m exactly (Calladine 1978), so when m > 0 while the count is
+zero or positive the count has been "made up" by states of self-stress.  The causes a
+practitioner knows by name are detected from the mechanism modes and the geometry:
+parallel reactions, concurrent reaction lines, collinear members at a pinned joint, an
+unbraced panel (a mechanism next to an over-braced part), and releases that add a
+mechanism (a release that depends on others).
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .assemble import Finding
+from .model import Scheme
+
+
+def _fmt(x: float) -> str:
+    return f"{x:.4g}"
+
+
+def _reaction_lines(scheme: Scheme, system) -> tuple[list[tuple[np.ndarray, np.ndarray, str]], bool]:
+    """(point, direction, node id) of each translational reaction; whether a rotation restraint acts."""
+    lines, rot = [], False
+    for nid, cols in system.reaction_cols.items():
+        p = np.array(scheme.node_xy(nid))
+        for c in cols:
+            _, _, word = system.cols[c]
+            if word == "rotation":
+                rot = True
+                continue
+            vec = system.A[:, c].toarray().ravel()
+            iu, iv, _ = system.node_dof[nid]
+            lines.append((p, np.array([vec[iu], vec[iv]]), nid))
+    return lines, rot
+
+
+def _concurrency_point(lines) -> tuple[np.ndarray | None, float]:
+    """Least-squares common point of the reaction lines and the largest distance to it."""
+    if len(lines) < 2:
+        return None, math.inf
+    N = np.array([[-d[1], d[0]] for _, d, _ in lines])
+    b = np.array([n @ p for (p, _, _), n in zip(lines, N)])
+    if np.linalg.matrix_rank(N, tol=1e-9) < 2:
+        return None, math.inf
+    pt, *_ = np.linalg.lstsq(N, b, rcond=None)
+    dist = float(np.max(np.abs(N @ pt - b)))
+    return pt, dist
+
+
+def _support_reason(scheme: Scheme, result) -> list[str]:
+    system = result.system
+    lines, rot = _reaction_lines(scheme, system)
+    out = []
+    size = scheme.size()
+    if rot:
+        return out
+    if len(lines) < 3:
+        return out
+    dirs = np.array([d / np.linalg.norm(d) for _, d, _ in lines])
+    cross = np.abs(dirs[:, 0] * dirs[0, 1] - dirs[:, 1] * dirs[0, 0])
+    nodes = sorted({nid for _, _, nid in lines})
+    if np.all(cross < 1e-9):
+        ang = math.degrees(math.atan2(dirs[0, 1], dirs[0, 0])) % 180
+        out.append(f"parallel reactions: every support reaction (at {', '.join(nodes)}) acts along the same "
+                   f"direction ({_fmt(ang)}°), so nothing stops the scheme sliding across it, however many "
+                   "supports are counted")
+        return out
+    pt, dist = _concurrency_point(lines)
+    if pt is not None and dist <= 1e-9 * size:
+        out.append(f"concurrent reaction lines: every support reaction line (at {', '.join(nodes)}) passes "
+                   f"through ({_fmt(pt[0])}, {_fmt(pt[1])}), so the scheme can turn about that point")
+    return out
+
+
+def _collinear_joints(scheme: Scheme, system, rel_tol: float) -> list[tuple[str, str, str, float]]:
+    """Pinned joints (no rotation DOF) where exactly two members meet almost in line.
+
+    Returns (node, member a, member b, offset of the node from the line through the far ends).
+    """
+    out = []
+    ends: dict[str, list[str]] = {}
+    for m in scheme.members.values():
+        ends.setdefault(m.start, []).append(m.id)
+        ends.setdefault(m.end, []).append(m.id)
+    size = scheme.size()
+    for nid, mids in ends.items():
+        if len(mids) != 2 or system.node_dof[nid][2] is not None:
+            continue
+        a, b = (scheme.members[k] for k in mids)
+        pa = np.array(scheme.node_xy(a.other_end(nid)))
+        pb = np.array(scheme.node_xy(b.other_end(nid)))
+        p = np.array(scheme.node_xy(nid))
+        d = pb - pa
+        L = float(np.linalg.norm(d))
+        if L == 0:
+            continue
+        off = abs(float(np.cross(d, p - pa))) / L
+        between = float((p - pa) @ d) / (L * L)
+        if off <= rel_tol * size and 0 < between < 1 and a.rise == 0 and b.rise == 0:
+            out.append((nid, a.id, b.id, off))
+    return out
+
+
+def explain(scheme: Scheme, result) -> list[str]:
+    """Explanations of any disagreement between the hand count and the rank result."""
+    m, s, D = result.mechanisms, result.self_stress, result.count.value
+    out: list[str] = []
+    if m == 0:
+        return out
+    if D >= 0:
+        out.append(f"The hand count gives {D}, but the rank shows {m} mechanism{'s' if m != 1 else ''} "
+                   f"and {s} state{'s' if s != 1 else ''} of self-stress: a count only gives s - m = {D}, "
+                   "so it cannot see the following:")
+    system = result.system
+    if result.rigid_body_mechanisms > 0:
+        reasons = _support_reason(scheme, result)
+        if reasons:
+            out.extend(reasons)
+        else:
+            out.append(f"the supports leave {result.rigid_body_mechanisms} rigid-body motion"
+                       f"{'s' if result.rigid_body_mechanisms != 1 else ''} of the scheme free")
+    for nid, a, b, _ in _collinear_joints(scheme, system, 1e-9):
+        out.append(f"collinear members: {a} and {b} meet in line at the pinned joint {nid}, which can move "
+                   "across that line (only infinitesimally; the members would have to stretch)")
+    # mechanisms that live in the releases only
+    if result.mechanism_basis is not None and result.mechanism_basis.shape[1] == m:
+        node_rows = [r for r, (k, _, _) in enumerate(system.rows) if k != "release"]
+        rel_rows = [r for r, (k, _, _) in enumerate(system.rows) if k == "release"]
+        B = result.mechanism_basis
+        if rel_rows:
+            # combinations with no nodal motion at all
+            Bn = B[node_rows, :]
+            sv = np.linalg.svd(Bn, compute_uv=False) if Bn.size else np.zeros(0)
+            k_rel = int(np.count_nonzero(sv < 1e-8)) + max(0, B.shape[1] - len(sv))
+            if k_rel > 0:
+                mids = sorted({system.rows[r][1] for r in rel_rows
+                               if np.abs(B[r, :]).max() > 1e-6})
+                out.append(f"a release that adds a mechanism: the releases of {', '.join(mids)} depend on "
+                           "each other (e.g. a shear release in a member already moment-released at both "
+                           "ends, which carries no shear anyway), so the member can deform without any "
+                           "node moving")
+    specific = len(out) - (1 if D >= 0 else 0)
+    if specific == 0 and s > 0 and D >= 0:
+        moving = _moving_nodes(result)
+        stressed = _stressed_members(result)
+        where = ""
+        if moving:
+            where += f" the mechanism moves {', '.join(moving[:6])}{'...' if len(moving) > 6 else ''}"
+        if stressed:
+            where += (";" if where else "") + (f" the self-stress sits in {', '.join(stressed[:6])}"
+                                               f"{'...' if len(stressed) > 6 else ''}")
+        out.append("a mechanism in one part next to redundancy in another (for example an unbraced panel "
+                   "beside a doubly braced one): the extra members do not stiffen the part that moves" +
+                   (f" —{where}" if where else ""))
+    elif specific == 0 and D >= 0:
+        out.append("the geometry is special (members or reactions lined up so that they cannot act)")
+    return out
+
+
+def _moving_nodes(result) -> list[str]:
+    """Nodes that move relative to their neighbours in the first mechanism mode."""
+    if not result.modes:
+        return []
+    mode = result.modes[0]
+    mags = {n: (dx * dx + dy * dy) ** 0.5 for n, (dx, dy) in mode.displacements.items()}
+    return [n for n, v in mags.items() if v > 1e-6]
+
+
+def _stressed_members(result) -> list[str]:
+    S = result.self_stress_basis
+    if S is None or S.shape[1] == 0:
+        return []
+    system = result.system
+    out = []
+    for mid, cols in system.member_cols.items():
+        if np.abs(S[cols, :]).max() > 1e-8:
+            out.append(mid)
+    return out
+
+
+def near_singular_findings(scheme: Scheme, result) -> list[Finding]:
+    """Warnings for geometry that is close to a mechanism (verdict kept)."""
+    from .rank import NEAR_GAP, NEAR_RTOL
+
+    out: list[Finding] = []
+    rr = result.rank
+    system = result.system
+    size = scheme.size()
+    units = scheme.units
+    collinear = _collinear_joints(scheme, system, 1e-3)
+    for nid, a, b, off in collinear:
+        if off > 1e-9 * size:
+            out.append(Finding(
+                f"near-singular geometry: joint {nid} is only {_fmt(off)} {units} ({_fmt(off / size)} of the "
+                f"scheme size) off the line of {a} and {b}; the scheme is stable but close to a mechanism, and "
+                "forces there will be very large", (nid, a, b)))
+    if result.mechanisms == 0 and result.rigid_body_mechanisms == 0:
+        lines, rot = _reaction_lines(scheme, system)
+        if not rot and len(lines) >= 3:
+            pt, dist = _concurrency_point(lines)
+            if pt is not None and 1e-9 * size < dist <= 1e-3 * size:
+                nodes = tuple(sorted({nid for _, _, nid in lines}))
+                out.append(Finding(
+                    f"near-singular supports: the reaction lines at {', '.join(nodes)} nearly meet at one point "
+                    f"(({_fmt(pt[0])}, {_fmt(pt[1])}), within {_fmt(dist)} {units}); the scheme can barely "
+                    "resist turning about it", nodes))
+            dirs = np.array([d / np.linalg.norm(d) for _, d, _ in lines])
+            ang = np.abs(np.arcsin(np.clip(dirs[:, 0] * dirs[0, 1] - dirs[:, 1] * dirs[0, 0], -1, 1)))
+            if 1e-9 < float(ang.max()) <= 1e-3:
+                nodes = tuple(sorted({nid for _, _, nid in lines}))
+                out.append(Finding(
+                    f"near-singular supports: the reactions at {', '.join(nodes)} are within "
+                    f"{_fmt(math.degrees(float(ang.max())))}° of parallel", nodes))
+    # generic: an isolated small singular value not explained above
+    smin, snext = rr.sigma_min_kept, rr.sigma_next
+    if not out and result.mechanisms == 0 and math.isfinite(smin) and smin <= NEAR_RTOL:
+        isolated = not math.isfinite(snext) or snext >= NEAR_GAP * smin
+        if isolated and rr.soft_vector is not None:
+            v = rr.soft_vector
+            mags = []
+            for nid, (iu, iv, _) in system.node_dof.items():
+                mags.append((math.hypot(v[iu], v[iv]), nid))
+            mags.sort(reverse=True)
+            top = tuple(n for mag, n in mags[:3] if mag > 0.3 * mags[0][0])
+            out.append(Finding(
+                f"near-singular geometry: the scheme is close to a mechanism (smallest stiffness ratio "
+                f"{_fmt(smin)}); the nodes that would move most: {', '.join(top)}", top))
+    return out
