@@ -79,22 +79,21 @@ class System:
 
 
 def _pieces(scheme: Scheme, active: list[str]) -> list[list[str]]:
-    parent = {n: n for n in active}
+    """Node ids of each connected piece (members join their end nodes)."""
+    from scipy.sparse.csgraph import connected_components
 
-    def find(a: str) -> str:
-        while parent[a] != a:
-            parent[a] = parent[parent[a]]
-            a = parent[a]
-        return a
-
-    for m in scheme.members.values():
-        ra, rb = find(m.start), find(m.end)
-        if ra != rb:
-            parent[ra] = rb
-    groups: dict[str, list[str]] = {}
-    for n in active:
-        groups.setdefault(find(n), []).append(n)
-    return list(groups.values())
+    index = {nid: k for k, nid in enumerate(active)}
+    n = len(active)
+    if n == 0:
+        return []
+    a = np.fromiter((index[m.start] for m in scheme.members.values()), int)
+    b = np.fromiter((index[m.end] for m in scheme.members.values()), int)
+    G = sp.coo_matrix((np.ones(a.size), (a, b)), shape=(n, n))
+    k, labels = connected_components(G, directed=False)
+    groups: list[list[str]] = [[] for _ in range(k)]
+    for nid, lab in zip(active, labels.tolist()):
+        groups[lab].append(nid)
+    return groups
 
 
 def rigid_beam_ends(scheme: Scheme) -> dict[str, int]:
@@ -119,60 +118,99 @@ def end_released(scheme: Scheme, member_id: str, node_id: str) -> bool:
 def assemble(scheme: Scheme) -> System:
     """Assemble the sparse equilibrium matrix of ``scheme`` (see module docstring)."""
     findings: list[Finding] = []
-    active = scheme.connected_node_ids()
-    active_set = set(active)
-    for nid in scheme.nodes:
-        if nid not in active_set:
+    node_ids = list(scheme.nodes)
+    index = {nid: k for k, nid in enumerate(node_ids)}
+    mlist = list(scheme.members.values())
+    nm = len(mlist)
+    nn = len(node_ids)
+    si = np.fromiter((index[m.start] for m in mlist), int, nm)
+    ei = np.fromiter((index[m.end] for m in mlist), int, nm)
+    is_beam = np.fromiter((m.kind == "beam" for m in mlist), bool, nm)
+    hinge = np.fromiter((n.hinge for n in scheme.nodes.values()), bool, nn)
+    rel_s = np.fromiter(("moment" in m.releases_start for m in mlist), bool, nm)
+    rel_e = np.fromiter(("moment" in m.releases_end for m in mlist), bool, nm)
+    used = np.zeros(nn, bool)
+    used[si] = True
+    used[ei] = True
+    active = [nid for nid, u in zip(node_ids, used.tolist()) if u]
+    for nid, u in zip(node_ids, used.tolist()):
+        if not u:
             findings.append(Finding(f'node "{nid}" is not reached by any member and is left out of the analysis',
                                     (nid,)))
-    rigid = rigid_beam_ends(scheme)
-
+    rigid_cnt = np.zeros(nn, int)
+    np.add.at(rigid_cnt, si[is_beam & ~rel_s & ~hinge[si]], 1)
+    np.add.at(rigid_cnt, ei[is_beam & ~rel_e & ~hinge[ei]], 1)
+    has_theta = used & (rigid_cnt > 0)
+    ndof_node = np.where(used, 2 + has_theta.astype(int), 0)
+    base = np.concatenate([[0], np.cumsum(ndof_node)[:-1]]).astype(int) if nn else np.zeros(0, int)
+    th_row = np.where(has_theta, base + 2, -1)
     rows: list[tuple[str, str, str]] = []
     node_dof: dict[str, tuple[int, int, int | None]] = {}
-    for nid in active:
-        iu = len(rows); rows.append(("u", nid, ""))
-        iv = len(rows); rows.append(("v", nid, ""))
-        it = None
-        if rigid.get(nid, 0) > 0:
-            it = len(rows); rows.append(("theta", nid, ""))
-        node_dof[nid] = (iu, iv, it)
+    for nid, b0, ht in zip(node_ids, base.tolist(), has_theta.tolist()):
+        if nid not in scheme.nodes or not ndof_node[index[nid]]:
+            continue
+        rows.append(("u", nid, "")); rows.append(("v", nid, ""))
+        if ht:
+            rows.append(("theta", nid, ""))
+            node_dof[nid] = (b0, b0 + 1, b0 + 2)
+        else:
+            node_dof[nid] = (b0, b0 + 1, None)
+    active_set = set(active)
 
-    lengths = []
-    for m in scheme.members.values():
-        (x0, y0), (x1, y1) = scheme.node_xy(m.start), scheme.node_xy(m.end)
-        lengths.append(math.hypot(x1 - x0, y1 - y0))
-    lref = float(np.mean(lengths)) if lengths else 1.0
+    X = np.fromiter((n.x for n in scheme.nodes.values()), float, nn)
+    Y = np.fromiter((n.y for n in scheme.nodes.values()), float, nn)
+    D = np.stack([X[ei] - X[si], Y[ei] - Y[si]], axis=1) if nm else np.zeros((0, 2))
+    Ls = np.hypot(D[:, 0], D[:, 1])
+    lengths = Ls.tolist()
+    lref = float(Ls.mean()) if nm else 1.0
+    cs = D[:, 0] / np.where(Ls > 0, Ls, 1.0)
+    sn = D[:, 1] / np.where(Ls > 0, Ls, 1.0)
+    rho = lref / np.where(Ls > 0, Ls, 1.0)
+    ncol_m = np.where(is_beam, 3, 1)
+    first = np.concatenate([[0], np.cumsum(ncol_m)[:-1]]).astype(int) if nm else np.zeros(0, int)
+    iu, iv, ju, jv = base[si], base[si] + 1, base[ei], base[ei] + 1
+    it, jt = th_row[si], th_row[ei]
 
+    cols: list[tuple[str, str, str]] = []
+    member_cols: dict[str, list[int]] = {}
+    for m, f, beam in zip(mlist, first.tolist(), is_beam.tolist()):
+        if beam:
+            cols += [("N", m.id, ""), ("Mi", m.id, ""), ("Mj", m.id, "")]
+            member_cols[m.id] = [f, f + 1, f + 2]
+        else:
+            cols.append(("N", m.id, ""))
+            member_cols[m.id] = [f]
+    # axial columns (every member)
+    I_parts = [iu, iv, ju, jv]
+    J_parts = [first] * 4
+    V_parts = [-cs, -sn, cs, sn]
+    # moment columns (beams)
+    b = np.nonzero(is_beam)[0]
+    for off, th in ((1, it), (2, jt)):
+        cb = first[b] + off
+        I_parts += [iu[b], iv[b], ju[b], jv[b]]
+        J_parts += [cb] * 4
+        V_parts += [-rho[b] * sn[b], rho[b] * cs[b], rho[b] * sn[b], -rho[b] * cs[b]]
+        has = th[b] >= 0
+        I_parts.append(th[b][has]); J_parts.append(cb[has]); V_parts.append(np.ones(int(has.sum())))
     I: list[int] = []
     J: list[int] = []
     V: list[float] = []
-    cols: list[tuple[str, str, str]] = []
-    member_cols: dict[str, list[int]] = {}
-    release_specs: list[tuple[str, str, list[tuple[int, float]]]] = []
 
     def put(r: int | None, c: int, v: float) -> None:
         if r is not None and v != 0.0:
             I.append(r); J.append(c); V.append(v)
 
-    for m, L in zip(scheme.members.values(), lengths):
-        (x0, y0), (x1, y1) = scheme.node_xy(m.start), scheme.node_xy(m.end)
-        c, s = (x1 - x0) / L, (y1 - y0) / L
-        iu, iv, it = node_dof[m.start]
-        ju, jv, jt = node_dof[m.end]
-        cN = len(cols); cols.append(("N", m.id, ""))
-        put(iu, cN, -c); put(iv, cN, -s); put(ju, cN, c); put(jv, cN, s)
-        member_cols[m.id] = [cN]
-        if m.kind == "bar":
+    release_specs: list[tuple[str, str, list[tuple[int, float]]]] = []
+    for k in b.tolist():
+        m = mlist[k]
+        hinged_s = scheme.nodes[m.start].hinge
+        hinged_e = scheme.nodes[m.end].hinge
+        if not (m.releases_start or m.releases_end or hinged_s or hinged_e):
             continue
-        rho = lref / L
-        cI = len(cols); cols.append(("Mi", m.id, ""))
-        cJ = len(cols); cols.append(("Mj", m.id, ""))
-        for cc, th in ((cI, it), (cJ, jt)):
-            put(iu, cc, -rho * s); put(iv, cc, rho * c)
-            put(ju, cc, rho * s); put(jv, cc, -rho * c)
-            put(th, cc, 1.0)
-        member_cols[m.id] += [cI, cJ]
-        # release conditions
+        L = lengths[k]
+        c, s, r_ = float(cs[k]), float(sn[k]), float(rho[k])
+        cN, cI, cJ = member_cols[m.id]
         alpha = arc_end_angle(L, m.rise)
         t = np.array([c, s]); n = np.array([-s, c])
         for end, nid, cM, turn in (("start", m.start, cI, alpha), ("end", m.end, cJ, -alpha)):
@@ -185,10 +223,10 @@ def assemble(scheme: Scheme) -> System:
             for word, vec in (("axial", tau), ("shear", nu)):
                 if word in rel:
                     a_n = float(vec @ t)
-                    a_m = -rho * float(vec @ n)
+                    a_m = -r_ * float(vec @ n)
                     entries = [(cN, a_n), (cI, a_m), (cJ, a_m)]
                     norm = math.sqrt(sum(e * e for _, e in entries))
-                    release_specs.append((m.id, f"{end}:{word}", [(k, e / norm) for k, e in entries]))
+                    release_specs.append((m.id, f"{end}:{word}", [(kk, e / norm) for kk, e in entries]))
 
     reaction_cols: dict[str, list[int]] = {}
     n_reactions = 0
@@ -226,8 +264,11 @@ def assemble(scheme: Scheme) -> System:
         for cc, v in entries:
             put(r, cc, v)
 
-    A = sp.csc_matrix((np.asarray(V, float), (np.asarray(I, int), np.asarray(J, int))),
-                      shape=(len(rows), len(cols)))
+    Iall = np.concatenate(I_parts + [np.asarray(I, int)]) if nm else np.asarray(I, int)
+    Jall = np.concatenate(J_parts + [np.asarray(J, int)]) if nm else np.asarray(J, int)
+    Vall = np.concatenate(V_parts + [np.asarray(V, float)]) if nm else np.asarray(V, float)
+    keep = Vall != 0.0
+    A = sp.csc_matrix((Vall[keep], (Iall[keep], Jall[keep])), shape=(len(rows), len(cols)))
     A.sum_duplicates()
     return System(A, rows, cols, node_dof, member_cols, reaction_cols, release_rows, lref, active,
                   _pieces(scheme, active), findings, n_reactions)

@@ -109,6 +109,42 @@ def rigid_body_fields(system: System, scheme: Scheme) -> np.ndarray:
     return T
 
 
+def piece_rigid_fields(system: System, scheme: Scheme) -> np.ndarray:
+    """Rigid-body motions of each connected piece separately (rows x 3 * pieces)."""
+    T = np.zeros((system.shape[0], 3 * len(system.pieces)))
+    for k, piece in enumerate(system.pieces):
+        for nid in piece:
+            iu, iv, it = system.node_dof[nid]
+            x, y = scheme.node_xy(nid)
+            T[iu, 3 * k:3 * k + 3] = (1.0, 0.0, -y)
+            T[iv, 3 * k:3 * k + 3] = (0.0, 1.0, x)
+            if it is not None:
+                T[it, 3 * k + 2] = system.lref
+    return T
+
+
+def reference_supported(system: System, scheme: Scheme):
+    """Member columns of A plus a pin and a roller per piece (stops exactly the rigid motions)."""
+    import scipy.sparse as sp
+
+    member_cols = [c for c, (k, _, _) in enumerate(system.cols) if k != "reaction"]
+    I, J, V = [], [], []
+    col = 0
+    for piece in system.pieces:
+        a = piece[0]
+        xa, ya = scheme.node_xy(a)
+        b = max(piece, key=lambda n: (scheme.node_xy(n)[0] - xa) ** 2 + (scheme.node_xy(n)[1] - ya) ** 2)
+        xb, yb = scheme.node_xy(b)
+        L = math.hypot(xb - xa, yb - ya) or 1.0
+        iu, iv, _ = system.node_dof[a]
+        I += [iu, iv]; J += [col, col + 1]; V += [1.0, 1.0]
+        ju, jv, _ = system.node_dof[b]
+        I += [ju, jv]; J += [col + 2, col + 2]; V += [-(yb - ya) / L, (xb - xa) / L]
+        col += 3
+    R = sp.csc_matrix((V, (I, J)), shape=(system.shape[0], col))
+    return sp.hstack([system.A[:, member_cols], R]).tocsc()
+
+
 def _mode_from_vector(vec: np.ndarray, system: System, kind: str) -> Mode:
     disp, rot, gaps = {}, {}, {}
     scale = 0.0
@@ -144,19 +180,24 @@ def classify(scheme: Scheme, *, bases: bool = False, max_modes: int = 12) -> Cla
     rr = decide_rank(A, want_mech=True, want_stress=bases)
     m, s = rr.m, rr.s
 
-    # support split: self-stress without reactions; mechanisms of the free structure
-    member_cols = [c for c, (k, _, _) in enumerate(system.cols) if k != "reaction"]
-    A_mem = A[:, member_cols]
-    rr_free = decide_rank(A_mem, want_mech=False) if A_mem.shape[1] else None
-    rank_free = rr_free.rank if rr_free is not None else 0
-    internal_s = len(member_cols) - rank_free
-    internal_m = max(0, (rows - rank_free) - 3 * len(system.pieces))
-
+    # support split (Pellegrino & Calladine 1986): analyse the structure on a reference set of
+    # 3 restraints per connected piece (a pin and a roller across the line to the farthest
+    # node), which stops exactly its rigid-body motions: its m is the internal mechanisms and
+    # its s the self-stress that needs no reactions.
     T = rigid_body_fields(system, scheme)
     AtT = A.T @ T
     sv = np.linalg.svd(AtT, compute_uv=False) if AtT.size else np.zeros(0)
     tol = 1e-9 * max(1.0, float(sv.max()) if sv.size else 1.0)
     rigid_m = 3 - int(np.count_nonzero(sv > tol)) if rows else 0
+    Tp = piece_rigid_fields(system, scheme)
+    n_reac = sum(len(v) for v in system.reaction_cols.values())
+    Ar = A[:, [c for c, (k, _, _) in enumerate(system.cols) if k == "reaction"]]
+    if n_reac == Tp.shape[1] and n_reac and np.linalg.matrix_rank((Ar.T @ Tp), tol=1e-9) == n_reac:
+        internal_m, internal_s = m, s
+    else:
+        A_ref = reference_supported(system, scheme)
+        rr_ref = decide_rank(A_ref, want_mech=False)
+        internal_m, internal_s = rr_ref.m, rr_ref.s
     if len(system.pieces) != 1:
         rigid_m = min(rigid_m, m)
 
