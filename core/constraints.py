@@ -46,6 +46,8 @@ from .model import Scheme, arc_end_angle
 
 #: models with at most this many unknowns use dense linear algebra
 DENSE_MAX_VARS = 600
+#: rank decisions on Phi_q with at most this many entries use a dense SVD
+DENSE_MAX_ENTRIES = 250_000
 
 
 def effective_releases(scheme: Scheme, member_id: str, node_id: str) -> frozenset[str]:
@@ -203,6 +205,8 @@ class ConstraintModel:
 
         # rows
         labels: list[tuple[str, str, str]] = []
+        #: pin-ended members with both ends on one body (no row; each one state of self-stress)
+        self.rigid_links: list[str] = []
         link_a, link_b, link_l, link_r = [], [], [], []
         pin_a, pin_b, pin_k, pin_r = [], [], [], []
         sl_a, sl_b, sl_o, sl_e, sl_r = [], [], [], [], []
@@ -216,6 +220,11 @@ class ConstraintModel:
         for m in scheme.members.values():
             if m.id in link_set:
                 a, b = self.member_att[m.id]
+                if self.node_entity[m.start] == self.node_entity[m.end] and \
+                        self.entities[self.node_entity[m.start]].kind == "body":
+                    # both ends on one rigid body: satisfied identically, one self-stress state
+                    self.rigid_links.append(m.id)
+                    continue
                 link_a.append(a); link_b.append(b)
                 pa, pb = nodes_xy[m.start], nodes_xy[m.end]
                 link_l.append(float(np.hypot(*(pb - pa))))
@@ -453,6 +462,11 @@ class ConstraintModel:
                 T[o + 2] = (0.0, 0.0, 1.0)
         return T
 
+    def internal_self_stress(self) -> int:
+        """Self-stress states inside bodies that no row carries: 3 per closed rigid loop, 1 per pin-ended
+        member with both ends on one body."""
+        return 3 * self.rigid_loops() + len(self.rigid_links)
+
     def rigid_loops(self) -> int:
         """Independent closed loops of rigidly joined members inside the bodies (cycle rank)."""
         loops = 0
@@ -550,8 +564,8 @@ class Nullity:
     mech_basis: np.ndarray
     #: orthonormal left null vectors of Phi_q (rows x s_rows): joint-force self-stresses
     stress_basis: np.ndarray
-    #: 3 per independent closed loop of rigidly joined members (one body, no rows)
-    loop_self_stress: int
+    #: self-stress inside bodies without rows (closed rigid loops, pin-ended members within a body)
+    internal_self_stress: int
 
 
 def null_space(model: ConstraintModel, q: np.ndarray | None = None) -> Nullity:
@@ -560,15 +574,28 @@ def null_space(model: ConstraintModel, q: np.ndarray | None = None) -> Nullity:
     The engine's routines get ``A = Phi_q^T`` (rows = unknowns, columns = constraints), so
     their mechanism basis is the null space of Phi_q and their self-stress basis its left
     null space.  A closed loop of rigidly joined members is one body here and carries its 3
-    states of self-stress without any row; they are added from the loop count.
+    states of self-stress without any row, and a pin-ended member with both ends on one body
+    carries one; they are added from :meth:`ConstraintModel.internal_self_stress`.
     """
-    from .rank import decide_rank, dense_rank, null_space_basis
+    from .rank import decide_rank, decide_zero_count, dense_rank, null_space_basis
 
     q = model.q0 if q is None else q
-    loops = 3 * model.rigid_loops()
+    loops = model.internal_self_stress()
     if model.n == 0 or model.r == 0:
         return Nullity(model.n, model.r + loops, model.r, np.eye(model.n), np.eye(model.r), loops)
-    A = sp.csc_matrix(model.jac(q).T)
+    Jm = model.jac(q)
+    if model.n * model.r <= DENSE_MAX_ENTRIES:
+        U, sig, Vt = np.linalg.svd(Jm.toarray(), full_matrices=True)
+        smax = float(sig[0]) if sig.size else 0.0
+        if smax == 0.0:
+            rank = 0
+        else:
+            # exact zeros are floored at rounding level so that they count with the rounded ones
+            nz, _ = decide_zero_count(np.maximum(sig, 1e-16 * smax), smax)
+            rank = sig.size - nz
+        return Nullity(model.n - rank, model.r - rank + loops, model.r - rank, Vt[rank:].T.copy(),
+                       U[:, rank:].copy(), loops)
+    A = sp.csc_matrix(Jm.T)
     rr = decide_rank(A, want_mech=True, want_stress=True)
     D = rr.mech_basis
     if D is None or D.shape[1] != rr.m:
