@@ -1,0 +1,144 @@
+"""Live re-analysis: throttle edits with a QTimer, classify a snapshot, drop stale results.
+
+After a change the runner waits ``interval_ms`` (a single-shot timer that is *not*
+restarted by further changes, so a long drag still gets a verdict every interval), takes the
+current immutable scheme as the snapshot and classifies it: inline when the scheme is small,
+on a one-thread ``QThreadPool`` when it is big.  Only one job runs at a time; a result whose
+revision is older than the document's is dropped and the newest snapshot goes next.
+``sync=True`` classifies at once on every change (tests).
+"""
+from __future__ import annotations
+
+import threading
+import time
+
+from PySide6.QtCore import QObject, QRunnable, QThreadPool, QTimer, Signal
+
+from kinestat.core.model import Scheme
+
+
+def classify_scheme(scheme: Scheme):
+    """The engine's verdict, or None for a scheme with no members (nothing to classify)."""
+    if not scheme.members:
+        return None
+    from kinestat.core.classify import classify
+
+    return classify(scheme)
+
+
+class _Signals(QObject):
+    done = Signal(int, object, object, float)  # revision, result, error, seconds
+
+
+class _Job(QRunnable):
+    def __init__(self, revision: int, scheme: Scheme, signals: _Signals):
+        super().__init__()
+        self.revision, self.scheme, self.signals = revision, scheme, signals
+        self.setAutoDelete(True)
+
+    def run(self) -> None:
+        t0 = time.perf_counter()
+        try:
+            res, err = classify_scheme(self.scheme), None
+        except Exception as exc:  # noqa: BLE001 - reported to the user, never a crash
+            res, err = None, exc
+        self.signals.done.emit(self.revision, res, err, time.perf_counter() - t0)
+
+
+class AnalysisRunner(QObject):
+    """Keeps ``result`` in step with ``doc.scheme``."""
+
+    #: revision, Classification (None for an empty scheme)
+    result_ready = Signal(int, object)
+    #: revision, message
+    failed = Signal(int, str)
+    #: a newer scheme is waiting for its verdict
+    pending = Signal()
+
+    def __init__(self, doc, parent: QObject | None = None, *, sync: bool = False, interval_ms: int = 90,
+                 thread_members: int = 120):
+        super().__init__(parent)
+        self.doc = doc
+        self.sync = sync
+        #: members above which the engine runs off the GUI thread
+        self.thread_members = thread_members
+        self.result = None
+        self.result_revision = -1
+        self.error: str | None = None
+        self.runs = 0
+        self.dropped = 0
+        self.last_seconds = 0.0
+        self.last_thread: int | None = None
+        self._busy = False
+        self._timer = QTimer(self)
+        self._timer.setSingleShot(True)
+        self._timer.setInterval(interval_ms)
+        self._timer.timeout.connect(self._start)
+        self._pool = QThreadPool(self)
+        self._pool.setMaxThreadCount(1)
+        self._signals = _Signals(self)
+        self._signals.done.connect(self._on_done)
+        doc.changed.connect(self._on_changed)
+
+    # ------------------------------------------------------------------
+    def is_current(self) -> bool:
+        return self.result_revision == self.doc.revision
+
+    def _on_changed(self, _change=None) -> None:
+        if self.sync:
+            self.run_now()
+            return
+        self.pending.emit()
+        if not self._timer.isActive():
+            self._timer.start()
+
+    def run_now(self) -> None:
+        """Classify the current scheme on this thread and publish the result."""
+        self._timer.stop()
+        rev, scheme = self.doc.revision, self.doc.scheme
+        t0 = time.perf_counter()
+        try:
+            res, err = classify_scheme(scheme), None
+        except Exception as exc:  # noqa: BLE001
+            res, err = None, exc
+        self.last_thread = threading.get_ident()
+        self._finish(rev, res, err, time.perf_counter() - t0)
+
+    def _start(self) -> None:
+        if self._busy:
+            return  # the finishing job starts the next one
+        rev, scheme = self.doc.revision, self.doc.scheme
+        if rev == self.result_revision:
+            return
+        if len(scheme.members) < self.thread_members:
+            self.run_now()
+            return
+        self._busy = True
+        self._pool.start(_Job(rev, scheme, self._signals))
+
+    def _on_done(self, rev: int, res, err, seconds: float) -> None:
+        self._busy = False
+        self.last_thread = None
+        self._finish(rev, res, err, seconds)
+        if self.doc.revision != self.result_revision and not self._timer.isActive():
+            self._timer.start()
+
+    def _finish(self, rev: int, res, err, seconds: float) -> None:
+        self.runs += 1
+        self.last_seconds = seconds
+        if rev != self.doc.revision:
+            self.dropped += 1
+            return
+        self.result_revision = rev
+        if err is not None:
+            self.result = None
+            self.error = f"{type(err).__name__}: {err}"
+            self.failed.emit(rev, self.error)
+            return
+        self.error = None
+        self.result = res
+        self.result_ready.emit(rev, res)
+
+    def wait_idle(self, timeout_ms: int = 10000) -> bool:
+        """Block until the pool is idle (benchmarks, shutdown)."""
+        return self._pool.waitForDone(timeout_ms)
