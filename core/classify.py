@@ -217,7 +217,7 @@ def classify(scheme: Scheme, *, bases: bool = False, max_modes: int = 12) -> Cla
             modes.append(_mode_from_vector(basis[:, k], system, "rigid-body" if k < n_rigid else "internal"))
 
     stress_basis = None
-    if bases or (m > 0 and s > 0 and cols <= 2000):
+    if bases:
         stress_basis = rr.stress_basis if rr.stress_basis is not None and rr.stress_basis.shape[1] == s \
             else null_space_basis(A, s)
 

@@ -399,7 +399,7 @@ class _Reader:
             return
         self.segs.append(_Seg(src, part, kind, p0, p1))
 
-    def _add_arc(self, src: int, kind: str, arc: tuple, part: int | None) -> None:
+    def _add_arc(self, src: int, kind: str, arc: tuple, part: int | None, ends: tuple | None = None) -> None:
         if kind == "bar":
             self._skip(src, "an arc on a bar layer: a bar is straight (map the layer to beam, "
                             "or draw the bar as a line)", part)
@@ -415,6 +415,9 @@ class _Reader:
                                        f"into {len(pieces)} members of at most a half circle")
         for k, pc in enumerate(pieces):
             p0, p1 = _arc_at(pc, 0.0), _arc_at(pc, 1.0)
+            if ends is not None:  # the drawn vertices, exactly
+                p0 = ends[0] if k == 0 else p0
+                p1 = ends[1] if k == len(pieces) - 1 else p1
             if p0 == p1:
                 self._skip(src, "zero length", part)
                 continue
@@ -467,7 +470,7 @@ class _Reader:
             r = c / (2.0 * abs(math.sin(theta / 2.0)))
             cw = _wcs_xy(ocs.to_wcs(Vec3(cx, cy, elevation)))
             a0 = math.atan2(w0[1] - cw[1], w0[0] - cw[0])
-            self._add_arc(src, kind, (cw[0], cw[1], r, a0, sgn * theta), part)
+            self._add_arc(src, kind, (cw[0], cw[1], r, a0, sgn * theta), part, (w0, w1))
 
     def _lwpolyline(self, src: int, e: Any, kind: str) -> None:
         sgn = self._planar(src, e)

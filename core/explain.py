@@ -25,15 +25,11 @@ def _reaction_lines(scheme: Scheme, system) -> tuple[list[tuple[np.ndarray, np.n
     """(point, direction, node id) of each translational reaction; whether a rotation restraint acts."""
     lines, rot = [], False
     for nid, cols in system.reaction_cols.items():
+        sup = scheme.supports[nid]
         p = np.array(scheme.node_xy(nid))
-        for c in cols:
-            _, _, word = system.cols[c]
-            if word == "rotation":
-                rot = True
-                continue
-            vec = system.A[:, c].toarray().ravel()
-            iu, iv, _ = system.node_dof[nid]
-            lines.append((p, np.array([vec[iu], vec[iv]]), nid))
+        for d in sup.directions():
+            lines.append((p, np.array(d), nid))
+        rot = rot or any(system.cols[c][2] == "rotation" for c in cols)
     return lines, rot
 
 
@@ -80,6 +76,14 @@ def _collinear_joints(scheme: Scheme, system, rel_tol: float) -> list[tuple[str,
 
     Returns (node, member a, member b, offset of the node from the line through the far ends).
     """
+    cache = getattr(system, "_collinear_cache", None)
+    if cache is None:
+        cache = system._collinear_cache = _collinear_candidates(scheme, system)
+    size = scheme.size()
+    return [c for c in cache if c[3] <= rel_tol * size]
+
+
+def _collinear_candidates(scheme: Scheme, system) -> list[tuple[str, str, str, float]]:
     out = []
     ends: dict[str, list[str]] = {}
     for m in scheme.members.values():
@@ -99,7 +103,7 @@ def _collinear_joints(scheme: Scheme, system, rel_tol: float) -> list[tuple[str,
             continue
         off = abs(float(np.cross(d, p - pa))) / L
         between = float((p - pa) @ d) / (L * L)
-        if off <= rel_tol * size and 0 < between < 1 and a.rise == 0 and b.rise == 0:
+        if off <= 1e-3 * size and 0 < between < 1 and a.rise == 0 and b.rise == 0:
             out.append((nid, a.id, b.id, off))
     return out
 
@@ -171,6 +175,10 @@ def _moving_nodes(result) -> list[str]:
 
 def _stressed_members(result) -> list[str]:
     S = result.self_stress_basis
+    if S is None and result.system.shape[1] <= 2000:
+        from .rank import null_space_basis
+
+        S = null_space_basis(result.system.A, result.self_stress)
     if S is None or S.shape[1] == 0:
         return []
     system = result.system

@@ -144,7 +144,7 @@ def _sigma_max(A: sp.csc_matrix, K: sp.spmatrix | None = None) -> float:
     lam = 0.0
     for _ in range(40):
         y = K @ x
-        lam = float(np.linalg.norm(y))
+        lam = math.sqrt(float(np.einsum("i,i->", y, y)))
         if lam == 0.0:
             return float(math.sqrt(spla.norm(A, 1) * spla.norm(A, np.inf)))
         x = y / lam
@@ -155,7 +155,7 @@ def _ldl_inertia(K: sp.csc_matrix, tau: float):
     """Symmetric-mode SuperLU of K - tau I: (negative pivot count, factor) or None."""
     n = K.shape[0]
     Ks = (K - tau * sp.identity(n, format="csc")).tocsc()
-    lu = spla.splu(Ks, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+    lu = spla.splu(Ks, permc_spec="COLAMD", diag_pivot_thresh=0.0,
                    options={"SymmetricMode": True})
     if not np.array_equal(lu.perm_r, lu.perm_c):
         return None
