@@ -99,7 +99,7 @@ def canonical_modes(model: ConstraintModel, D: np.ndarray, q: np.ndarray | None 
     Rigid-body motions first: the projections of the x translation, the y translation and
     the rotation about the centroid onto the rigid motions the supports allow (in that
     order, Gram-Schmidt, sign along the generating motion).  Then the internal modes: the
-    rest of the null space, orthogonal to the rigid-body ones, by :func:`_pivoted_basis`.
+    rest of the null space, orthogonal to the rigid-body ones, by :func:`_canonical_columns`.
     Orthonormal in the velocities of all joint points; signs fixed deterministically.
     """
     q = model.q0 if q is None else q
