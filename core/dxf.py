@@ -513,9 +513,9 @@ class _Reader:
         name = str(e.dxf.name).upper()
         m = e.matrix44()
         o = m.transform((0.0, 0.0, 0.0))
-        u = m.transform((0.0, 1.0, 0.0))
+        u = m.transform_direction((0.0, 1.0, 0.0))  # the support's "along" direction
         pt = (self._num(src, o[0], "insert.x"), self._num(src, o[1], "insert.y"))
-        ang = math.degrees(math.atan2(float(u[1]) - float(o[1]), float(u[0]) - float(o[0])))
+        ang = math.degrees(math.atan2(float(u[1]), float(u[0])))
         ang = round(ang % 360.0, 9) % 360.0
         if name == BLOCK_HINGE:
             self.marks.append((src, "hinge", None, pt))
