@@ -205,15 +205,15 @@ def classify(scheme: Scheme, *, bases: bool = False, max_modes: int = 12) -> Cla
     count = hand_count(scheme, system)
 
     basis = rr.mech_basis
-    if m > 0 and (basis is None or basis.shape[1] != m) and m <= 200:
+    if m > 0 and (basis is None or basis.shape[1] != m) and rows * cols <= 4_000_000 and m <= 200:
         from .rank import dense_rank
         basis = dense_rank(A, want_stress=False).mech_basis
     modes: list[Mode] = []
-    if m > 0 and basis is not None and basis.shape[1] == m:
-        basis = _order_modes(basis, T)
+    if m > 0 and basis is not None and basis.shape[1] > 0:
+        basis = _order_modes(basis, T) if basis.shape[1] == m else basis
         basis = _canonical_sign(basis)
         n_rigid = rigid_m
-        for k in range(min(m, max_modes)):
+        for k in range(min(basis.shape[1], max_modes)):
             modes.append(_mode_from_vector(basis[:, k], system, "rigid-body" if k < n_rigid else "internal"))
 
     stress_basis = None

@@ -93,7 +93,7 @@ def decide_zero_count(values: np.ndarray, sigma_max: float) -> tuple[int, float]
     if ok.size:
         k = int(ok[np.argmax(ratios[ok])])
         return k + 1, float(ratios[k])
-    gap = float(ratios[by_level - 1]) if by_level else (float(v[0] / 1e-300) if v.size else math.inf)
+    gap = float(ratios[by_level - 1]) if by_level else math.inf
     return by_level, gap
 
 
@@ -163,62 +163,107 @@ def _ldl_inertia(K: sp.csc_matrix, tau: float):
     return int(np.count_nonzero(d < 0)), lu
 
 
-def sparse_rank(A: sp.csc_matrix, want_mech: bool = True, max_basis: int = 64) -> RankResult:
-    """Rank of a large sparse A without forming it dense (see module docstring)."""
+def _ritz_null(B: sp.spmatrix, gram: sp.spmatrix, lu, k: int, smax: float,
+               max_sweeps: int = 40) -> tuple[np.ndarray, np.ndarray]:
+    """Block inverse iteration with the factors ``lu`` of ``gram - tau I`` (gram = B^T B).
+
+    Returns an orthonormal block X (n x k) ordered by increasing ``|B x| / sigma_max`` and
+    those residuals.  The residual is measured on B itself, not on the Gram matrix, so soft
+    but non-zero directions (slender trusses) are told apart from exact null vectors.
+    """
+    n = gram.shape[0]
+    k = min(k, n)
+    rng = np.random.default_rng(12345)
+    X, _ = np.linalg.qr(rng.standard_normal((n, k)))
+    prev = None
+    for sweep in range(max_sweeps):
+        X, _ = np.linalg.qr(lu.solve(X))
+        H = X.T @ (gram @ X)
+        _, Q = np.linalg.eigh((H + H.T) / 2)
+        X = X @ Q
+        resid = np.linalg.norm(B @ X, axis=0) / smax
+        nz, _ = decide_zero_count(resid, 1.0)
+        if sweep >= 2 and prev is not None and nz == prev[0] and \
+                np.allclose(np.sort(resid)[:nz], prev[1][:nz], rtol=0.5, atol=1e-14):
+            break
+        prev = (nz, np.sort(resid))
+    # the SVD of B X separates exact null directions from soft ones inside the block
+    _, sy, Vyt = la.svd(B @ X, full_matrices=False)
+    order = np.argsort(sy)
+    Xo = X @ Vyt.T[:, order]
+    return Xo, sy[order] / smax
+
+
+def sparse_rank(A: sp.csc_matrix, want_mech: bool = True, max_basis: int = 64,
+                max_modes: int = 12) -> RankResult:
+    """Rank of a large sparse A without forming it dense (see module docstring).
+
+    1. One symmetric factorisation of K - tau I (K = A A^T) gives by inertia an upper bound
+       mK on m; ``max(0, rows - cols, rows - structural rank)`` is a lower bound.  Equal
+       bounds settle m.
+    2. Otherwise the ambiguous directions are checked on A itself: on the mechanism side
+       when mK is small, else on the self-stress side (a factorisation of A^T A - tau I),
+       because a tiny but non-zero singular value of A shows up on both sides at once
+       while exact null vectors do not: s - m = cols - rows stays exact either way.
+    """
     rows, cols = A.shape
     K = (A @ A.T).tocsc()
     smax = _sigma_max(A, K)
     tau = (K_RTOL * smax) ** 2
     res = _ldl_inertia(K, tau)
     if res is None:
-        # SuperLU chose an off-diagonal pivot: inertia not available; dense fallback
         return dense_rank(A, want_stress=False)
     mK, lu = res
-    lower = max(0, rows - cols, rows - _structural_rank(A))
-    if mK == lower and (not want_mech or mK == 0 or mK > max_basis):
+    sr = _structural_rank(A)
+    lower_m = max(0, rows - cols, rows - sr)
+    lower_s = max(0, cols - rows, cols - sr)
+    route = "sparse-inertia"
+    gap = math.inf
+    kept = nxt = math.nan
+    soft = None
+    basis = None
+    if mK == lower_m:
         m = mK
-        return RankResult(rows - m, m, cols - rows + m, smax, math.nan, math.nan,
-                          None if m else np.zeros((rows, 0)), None, "sparse-inertia")
-    if mK > max_basis and mK == lower:
-        m = mK
-        return RankResult(rows - m, m, cols - rows + m, smax, math.nan, math.nan, None, None,
-                          "sparse-inertia")
-    # candidate subspace by block inverse iteration with the same factors, then the A check
-    k = mK + 6
-    rng = np.random.default_rng(12345)
-    X = rng.standard_normal((rows, k))
-    X, _ = np.linalg.qr(X)
-    resid_prev = None
-    for sweep in range(40):
-        X = lu.solve(X)
-        X, _ = np.linalg.qr(X)
-        # Rayleigh-Ritz with K, then measure on A itself
-        H = X.T @ (K @ X)
-        w, Q = np.linalg.eigh((H + H.T) / 2)
-        X = X @ Q
-        Y = A.T @ X
-        resid = np.linalg.norm(Y, axis=0) / smax
-        if sweep >= 2 and resid_prev is not None:
-            nz_now, _ = decide_zero_count(resid, 1.0)
-            nz_prev, _ = decide_zero_count(resid_prev, 1.0)
-            if nz_now == nz_prev and np.allclose(np.sort(resid)[:nz_now], np.sort(resid_prev)[:nz_now],
-                                                 rtol=0.5, atol=1e-14):
-                break
-        resid_prev = resid
-    # SVD of A^T X separates exact null directions from soft ones inside the subspace
-    Uy, sy, Vyt = la.svd(A.T @ X, full_matrices=False)
-    order = np.argsort(sy)
-    sy = sy[order]
-    Vy = Vyt.T[:, order]
-    m, gap = decide_zero_count(sy, smax)
-    m = max(m, lower)
-    basis = X @ Vy[:, :m]
-    basis, _ = np.linalg.qr(basis) if m else (np.zeros((rows, 0)), None)
-    kept = float(sy[m] / smax) if m < sy.size else math.nan
-    soft = (X @ Vy[:, m]) if m < sy.size else None
-    nxt = float(sy[m + 1] / smax) if m + 1 < sy.size else math.nan
-    return RankResult(rows - m, m, cols - rows + m, smax, kept, nxt, basis, None, "sparse-checked",
-                      soft, gap)
+    elif mK <= max_basis:
+        X, r = _ritz_null(A.T, K, lu, mK + 6, smax)
+        m, gap = decide_zero_count(r, 1.0)
+        m = max(m, lower_m)
+        basis = X[:, :m]
+        kept = float(r[m]) if m < r.size else math.nan
+        nxt = float(r[m + 1]) if m + 1 < r.size else math.nan
+        soft = X[:, m] if m < r.size else None
+        route = "sparse-checked"
+    else:
+        G = (A.T @ A).tocsc()
+        res2 = _ldl_inertia(G, tau)
+        if res2 is None:
+            return dense_rank(A, want_stress=False)
+        sK, lu2 = res2
+        if sK == lower_s:
+            s = sK
+            route = "sparse-inertia-both"
+        elif sK <= max_basis:
+            _, r = _ritz_null(A, G, lu2, sK + 6, smax)
+            s, gap = decide_zero_count(r, 1.0)
+            s = max(s, lower_s)
+            route = "sparse-checked-stress"
+        else:
+            X, r = _ritz_null(A.T, K, lu, mK + 6, smax)
+            m_, gap = decide_zero_count(r, 1.0)
+            s = max(m_, lower_m) + cols - rows
+            basis = X[:, :max(m_, lower_m)]
+            route = "sparse-checked"
+        m = s - (cols - rows)
+    if want_mech and m > 0 and (basis is None or basis.shape[1] < min(m, max_modes)):
+        # a few mechanism modes for display, checked on A
+        X, r = _ritz_null(A.T, K, lu, min(m, max_modes) + 6, smax, max_sweeps=12)
+        good = int(np.count_nonzero(r <= 10 * ZERO_RTOL))
+        basis = X[:, :min(good, m, max_modes)]
+    if basis is not None and basis.shape[1]:
+        basis, _ = np.linalg.qr(basis)
+    elif m == 0:
+        basis = np.zeros((rows, 0))
+    return RankResult(rows - m, m, cols - rows + m, smax, kept, nxt, basis, None, route, soft, gap)
 
 
 def decide_rank(A: sp.csc_matrix, want_mech: bool = True, want_stress: bool = False) -> RankResult:
