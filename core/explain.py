@@ -146,6 +146,13 @@ def explain(scheme: Scheme, result) -> list[str]:
                            "each other (e.g. a shear release in a member already moment-released at both "
                            "ends, which carries no shear anyway), so the member can deform without any "
                            "node moving")
+    if len(out) == (1 if D >= 0 else 0):
+        triple = _hinges_in_line(scheme, system, _moving_nodes(result)[:12])
+        if triple is not None and triple[3] <= 1e-9 * scheme.size():
+            h, a, b, _ = triple
+            out.append(f"three hinges in line: hinge {h} lies on the line through the pinned supports {a} and "
+                       f"{b}, so the two parts it joins can turn together (only infinitesimally: the first "
+                       "movement already stretches the line)")
     specific = len(out) - (1 if D >= 0 else 0)
     if specific == 0 and s > 0 and D >= 0:
         moving = _moving_nodes(result)
@@ -233,7 +240,44 @@ def near_singular_findings(scheme: Scheme, result) -> list[Finding]:
                 mags.append((math.hypot(v[iu], v[iv]), nid))
             mags.sort(reverse=True)
             top = tuple(n for mag, n in mags[:3] if mag > 0.3 * mags[0][0])
+            triple = _hinges_in_line(scheme, system, [n for _, n in mags[:6]])
+            if triple is not None:
+                h, a, b, off = triple
+                out.append(Finding(
+                    f"near-singular geometry: hinge {h} is only {_fmt(off)} {units} ({_fmt(off / size)} of the "
+                    f"scheme size) off the line through the pinned supports {a} and {b} (three hinges nearly in "
+                    f"line); the scheme is stable but close to a mechanism (smallest stiffness ratio "
+                    f"{_fmt(smin)})", (h, a, b)))
+                return out
             out.append(Finding(
                 f"near-singular geometry: the scheme is close to a mechanism (smallest stiffness ratio "
                 f"{_fmt(smin)}); the nodes that would move most: {', '.join(top)}", top))
     return out
+
+
+def _hinges_in_line(scheme: Scheme, system, candidates: list[str]):
+    """A pinned joint among ``candidates`` nearly on the line through two pinned supports.
+
+    The classical three-hinge condition: two rigid parts joined by a hinge and each pinned
+    to the ground form a mechanism when the three hinges lie on one line.
+    Returns (hinge, support a, support b, offset) with the smallest offset, or None.
+    """
+    pins = [nid for nid, s in scheme.supports.items()
+            if nid in system.node_dof and not s.fixes_rotation and len(s.directions()) == 2]
+    best = None
+    size = scheme.size()
+    for h in candidates:
+        if system.node_dof.get(h, (0, 0, 0))[2] is not None or h in pins:
+            continue
+        p = np.array(scheme.node_xy(h))
+        for i, a in enumerate(pins):
+            for b in pins[i + 1:]:
+                pa, pb = np.array(scheme.node_xy(a)), np.array(scheme.node_xy(b))
+                d = pb - pa
+                L = float(np.linalg.norm(d))
+                if L == 0:
+                    continue
+                off = abs(float(np.cross(d, p - pa))) / L
+                if off <= 1e-3 * size and (best is None or off < best[3]):
+                    best = (h, a, b, off)
+    return best
