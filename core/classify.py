@@ -109,6 +109,15 @@ def rigid_body_fields(system: System, scheme: Scheme) -> np.ndarray:
     return T
 
 
+def _all_rigidly_jointed(scheme: Scheme, system: System) -> bool:
+    """Every member a beam, no release rows, every node with a rotation DOF."""
+    if system.release_rows:
+        return False
+    if any(m.kind != "beam" for m in scheme.members.values()):
+        return False
+    return all(it is not None for (_, _, it) in system.node_dof.values())
+
+
 def piece_rigid_fields(system: System, scheme: Scheme) -> np.ndarray:
     """Rigid-body motions of each connected piece separately (rows x 3 * pieces)."""
     T = np.zeros((system.shape[0], 3 * len(system.pieces)))
@@ -192,8 +201,14 @@ def classify(scheme: Scheme, *, bases: bool = False, max_modes: int = 12) -> Cla
     Tp = piece_rigid_fields(system, scheme)
     n_reac = sum(len(v) for v in system.reaction_cols.values())
     Ar = A[:, [c for c, (k, _, _) in enumerate(system.cols) if k == "reaction"]]
+    n_mcols = len(system.cols) - n_reac
     if n_reac == Tp.shape[1] and n_reac and np.linalg.matrix_rank((Ar.T @ Tp), tol=1e-9) == n_reac:
         internal_m, internal_s = m, s
+    elif _all_rigidly_jointed(scheme, system):
+        # members joined rigidly to each other form one rigid body per connected piece
+        # (common practice), so the free structure has no internal mechanism and, by the
+        # count identity, 3 self-stress states per independent closed loop
+        internal_m, internal_s = 0, n_mcols + 3 * len(system.pieces) - rows
     else:
         A_ref = reference_supported(system, scheme)
         rr_ref = decide_rank(A_ref, want_mech=False)

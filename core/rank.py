@@ -11,10 +11,12 @@ depend on units, rotation or translation of the drawing (A itself is made scale-
   factorisation returns exact zeros at about ``sqrt(n) * eps * sigma_max`` (1e-14 for
   n = 1e5), while the smallest genuine singular value of a slender sound truss falls like
   1 / panels^2 (about 3e-9 relative at 25,000 panels), so the level sits in the gap.
-* **Gap criterion.**  The rank is placed at the largest ratio between consecutive
-  singular values (candidates sorted) provided the ratio is at least ``GAP_MIN = 1e3`` and
-  the value below it is under the zero level; when no such gap exists the zero level alone
-  decides.  This is what makes the count robust when rounding spreads exact zeros.
+* **Gap criterion.**  Sorting the candidate values, the zero count is placed at the
+  largest ratio between consecutive values that is at least ``GAP_MIN = 1e3`` and whose
+  lower side is at most ``10 * ZERO_RTOL``; when no such split exists the zero level alone
+  decides.  Exact zeros spread by rounding (or by an iterative route) are thereby kept
+  together, and a genuine small value separated from them by three orders of magnitude is
+  not swallowed.
 * **Near-singular warning.**  A non-zero singular value isolated below the bulk
   (``sigma_r <= NEAR_RTOL * sigma_max`` with ``NEAR_RTOL = 1e-4`` and a ratio of at least
   ``1e2`` to the next one up) means the geometry is close to a mechanism: the verdict is
