@@ -16,7 +16,8 @@ drawing's model space into a :class:`~kinestat.core.model.Scheme`:
   circle are split in equal parts of at most a half circle;
 * units come from the ``$INSUNITS`` header, or are given;
 * support and hinge marks written by :func:`scheme_to_dxf` (block references named
-  ``KINESTAT_...``) are read back as supports and hinges.
+  ``KINESTAT_...``) are read back as supports and hinges, and POINTs on layer
+  ``KINESTAT_NODE`` as nodes that no member reaches.
 
 Whatever cannot be used is skipped and listed with its reason in the
 :class:`ImportReport`; data that is broken (an unreadable file, a coordinate that is not a
@@ -26,7 +27,8 @@ imported scheme is always a valid version-1 scheme.
 
 Export (:func:`scheme_to_dxf`, :func:`write_dxf`) writes one layer per member kind (LINE for
 straight members, ARC for curved ones), support and hinge marks as block references on
-their own layers, id labels, and the concept-stage caution as a text note.
+their own layers, id labels, and the concept-stage caution as a text note.  The format
+details are in ``docs/dxf.md``.
 """
 from __future__ import annotations
 
