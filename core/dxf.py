@@ -93,6 +93,8 @@ DEFAULT_TOL_FRACTION = 1e-3
 DEFAULT_FAR_FACTOR = 10.0
 
 _HALF_TURN = math.pi * (1 + 1e-9)
+#: coordinates beyond this (drawing units) are not usable line work (float spacing there is ~0.1)
+COORD_LIMIT = 1e15
 
 
 class DxfError(SchemeError):
@@ -394,8 +396,16 @@ class _Reader:
             self.layer_kinds[layer] = kind
             self.layer_kind_from[layer] = how
 
+    def _too_far(self, src: int, values: tuple[float, ...], part: int | None) -> bool:
+        if not all(abs(v) <= COORD_LIMIT for v in values):  # also catches an overflow to inf / nan
+            self._skip(src, f"a coordinate beyond +-{COORD_LIMIT:g} drawing units", part)
+            return True
+        return False
+
     def _add_straight(self, src: int, kind: str, p: tuple, q: tuple, part: int | None) -> None:
         p0, p1 = (p[0], p[1]), (q[0], q[1])
+        if self._too_far(src, p0 + p1, part):
+            return
         if p0 == p1:
             self._skip(src, "zero length", part)
             return
@@ -407,6 +417,8 @@ class _Reader:
                             "or draw the bar as a line)", part)
             return
         cx, cy, r, a0, sw = arc
+        if self._too_far(src, (abs(cx) + r, abs(cy) + r) + (ends[0] + ends[1] if ends else ()), part):
+            return
         if r == 0 or sw == 0:
             self._skip(src, "zero length", part)
             return
@@ -441,6 +453,8 @@ class _Reader:
         sweep_deg = (a_e - a_s) % 360.0
         if sweep_deg == 0.0 and a_e != a_s:
             sweep_deg = 360.0
+        if self._too_far(src, (c[0], c[1], r), None):
+            return
         ocs = e.ocs()
         cw = _wcs_xy(ocs.to_wcs(Vec3(c)))
         p0 = _wcs_xy(ocs.to_wcs(Vec3(c[0] + r * math.cos(math.radians(a_s)),
@@ -461,6 +475,8 @@ class _Reader:
             part = k + 1
             w0 = _wcs_xy(ocs.to_wcs(Vec3(x0, y0, elevation)))
             w1 = _wcs_xy(ocs.to_wcs(Vec3(x1, y1, elevation)))
+            if self._too_far(src, (x0, y0, x1, y1), part):
+                continue
             if b == 0.0 or (x0, y0) == (x1, y1):
                 self._add_straight(src, kind, w0, w1, part)
                 continue

@@ -317,6 +317,20 @@ def test_entities_far_away_are_skipped(tmp_path):
     assert max(n.x for n in s.nodes.values()) == 9
 
 
+def test_absurd_coordinates_are_skipped_not_a_crash(tmp_path):
+    # beyond 1e15 the spacing of doubles (IEEE 754) exceeds 0.1 unit: not usable line work
+    doc, msp = new_doc()
+    msp.add_line((0, 0), (5, 0))
+    huge = msp.add_line((1e300, 0), (-1e300, 1))
+    pl = msp.add_lwpolyline([(0, 0, 0), (5e299, 5e299, 1e10), (1e300, 1, 0)], format="xyb")
+    s, r = read(doc, tmp_path)
+    by = {(x.handle, x.part): x.reason for x in r.skipped}
+    assert "beyond" in by[(huge.dxf.handle, None)]
+    assert "beyond" in by[(pl.dxf.handle, 1)] and "beyond" in by[(pl.dxf.handle, 2)]
+    assert len(s.members) == 1
+    assert all(abs(n.x) <= 1e15 for n in s.nodes.values())
+
+
 def test_unsupported_entities_are_listed_with_reasons(tmp_path):
     doc, msp = new_doc()
     msp.add_line((0, 0), (5, 0))
