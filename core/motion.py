@@ -45,7 +45,7 @@ from .model import Scheme, arc_points
 from .secondorder import Verdict, assess
 
 #: largest joint displacement per step, fraction of the model size
-STEP_DISP = 1.0 / 40
+STEP_DISP = 1.0 / 25
 #: largest member rotation per step (radians)
 STEP_ROT = math.radians(3.0)
 #: largest turn of the tangent (or the secant) in one step
@@ -53,7 +53,7 @@ MAX_TURN = math.radians(15.0)
 #: stop ("limit") once a joint has moved this many model sizes from the drawn position
 MAX_TRAVEL = 2.5
 #: default number of steps in each direction
-DEFAULT_STEPS = 240
+DEFAULT_STEPS = 400
 #: amplitude of a linearised (infinitesimal) mode: fastest joint moves this fraction of the size
 LINEAR_AMPLITUDE = 0.05
 ENDS = ("full cycle", "dead centre", "clash", "limit")
@@ -187,65 +187,53 @@ def choose_driver(model: ConstraintModel, t0: np.ndarray) -> str | None:
 
 
 class ClashCheck:
-    """Members passing through each other (shapely): pairs that did not touch when drawn and now do."""
+    """Members passing through each other (shapely).
+
+    A clash is a pair of members *not joined at a common node* whose lines come to touch
+    or cross although they did not in the drawn position.  Members joined at a node may
+    turn past one another (at a pin they sit side by side, as the crank and the coupler of
+    a crank-rocker do through a full turn).
+    """
 
     def __init__(self, model: ConstraintModel):
         self.model = model
         sch = model.scheme
         self.ids = list(sch.members)
         self.curved = {mid for mid in self.ids if sch.members[mid].rise}
-        self.shared: dict[tuple[int, int], list[str]] = {}
-        ends = {k: {sch.members[mid].start, sch.members[mid].end} for k, mid in enumerate(self.ids)}
         at: dict[str, list[int]] = {}
         for k, mid in enumerate(self.ids):
-            for nid in ends[k]:
+            for nid in {sch.members[mid].start, sch.members[mid].end}:
                 at.setdefault(nid, []).append(k)
-        for nid, ks in at.items():
+        self.joined: set[tuple[int, int]] = set()
+        for ks in at.values():
             for i, a in enumerate(ks):
                 for b in ks[i + 1:]:
-                    self.shared.setdefault((min(a, b), max(a, b)), []).append(nid)
-        self.radius = 1e-6 * model.size
+                    self.joined.add((min(a, b), max(a, b)))
         self.initial = self.touching(model.q0)
 
     def geometries(self, q: np.ndarray):
         import shapely
 
         ends = self.model.member_ends(q)
-        coords = []
+        lines = []
         for mid in self.ids:
             a, b = ends[mid]
             if mid in self.curved:
-                coords.append(np.array(arc_points(tuple(a), tuple(b), self._rise(mid), 16)))
+                rise = self.model.scheme.members[mid].rise
+                lines.append(shapely.LineString(arc_points(tuple(a), tuple(b), rise, 16)))
             else:
-                coords.append(np.array([a, b]))
-        return [shapely.LineString(c) for c in coords], ends
-
-    def _rise(self, mid: str) -> float:
-        return self.model.scheme.members[mid].rise
+                lines.append(shapely.LineString([a, b]))
+        return lines
 
     def touching(self, q: np.ndarray) -> set[tuple[int, int]]:
         import shapely
 
-        geoms, ends = self.geometries(q)
+        geoms = self.geometries(q)
         if len(geoms) < 2:
             return set()
         tree = shapely.STRtree(geoms)
         left, right = tree.query(geoms, predicate="intersects")
-        out = set()
-        node_pos = None
-        for a, b in zip(left.tolist(), right.tolist()):
-            if a >= b:
-                continue
-            shared = self.shared.get((a, b))
-            if shared:
-                if node_pos is None:
-                    node_pos = self.model.node_positions(q)
-                inter = geoms[a].intersection(geoms[b])
-                zone = shapely.union_all([shapely.Point(node_pos[n]).buffer(self.radius) for n in shared])
-                if inter.difference(zone).is_empty:
-                    continue
-            out.add((a, b))
-        return out
+        return {(a, b) for a, b in zip(left.tolist(), right.tolist()) if a < b and (a, b) not in self.joined}
 
     def new_pairs(self, q: np.ndarray) -> list[tuple[str, str]]:
         return [(self.ids[a], self.ids[b]) for a, b in sorted(self.touching(q) - self.initial)]
@@ -290,11 +278,16 @@ class Tracer:
         return h if math.isfinite(h) else self.disp
 
     def _det_sign(self, q: np.ndarray, t: np.ndarray) -> int | None:
+        """Sign of det[Phi_q; t^T] (small square systems only); 0 at a singular point."""
         m = self.model
         if m.r != m.n - 1 or m.n > DENSE_MAX_VARS:
             return None
         M = np.vstack([m.jac(q).toarray(), t[None, :]])
-        sign, _ = np.linalg.slogdet(M)
+        sign, logdet = np.linalg.slogdet(M)
+        # relative to Hadamard's bound: a determinant this small is a singular point
+        bound = float(np.sum(np.log(np.maximum(np.linalg.norm(M, axis=1), 1e-300))))
+        if sign == 0 or logdet - bound < math.log(1e-9):
+            return 0
         return int(sign)
 
     def _step(self, q: np.ndarray, t: np.ndarray, h: float):
@@ -344,7 +337,7 @@ class Tracer:
                 return out, "clash"
             # bifurcation passed (shoot through, same branch)
             det = self._det_sign(y, t_new)
-            if det is not None and det_prev is not None and det != det_prev and det != 0:
+            if det and det_prev and det != det_prev:
                 self.events.append({"kind": "bifurcation", "direction": "forward" if sign > 0 else "backward",
                                     "step": len(out) + 1})
             if det:
