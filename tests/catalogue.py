@@ -42,8 +42,11 @@ SQ = {"A": (0, 0), "B": (4, 0), "C": (4, 3), "D": (0, 3)}
 PORTAL = {"A": (0, 0), "B": (0, 3), "C": (4, 3), "D": (4, 0)}
 
 
-def strip_truss(panels: int, width=1.0, depth=0.8, cut_every: int = 0) -> Scheme:
-    """A triangulated strip: two chords, verticals and one diagonal per panel; pin + roller."""
+def strip_truss(panels: int, width=1.0, depth=0.8, cut_every: int = 0, missing=()) -> Scheme:
+    """A triangulated strip: two chords, verticals and one diagonal per panel; pin + roller.
+
+    ``missing``: panel indices whose diagonal is left out (each one leaves that panel a
+    mechanism)."""
     nodes = {}
     for i in range(panels + 1):
         nodes[f"b{i}"] = (i * width, 0.0)
@@ -51,7 +54,7 @@ def strip_truss(panels: int, width=1.0, depth=0.8, cut_every: int = 0) -> Scheme
     pairs = []
     for i in range(panels):
         pairs += [(f"b{i}", f"b{i+1}"), (f"t{i}", f"t{i+1}")]
-        if not (cut_every and i % cut_every == cut_every // 2):
+        if not (cut_every and i % cut_every == cut_every // 2) and i not in missing:
             pairs.append((f"b{i}", f"t{i+1}"))
     for i in range(panels + 1):
         pairs.append((f"b{i}", f"t{i}"))
