@@ -213,6 +213,9 @@ def scheme_from_dict(data: Any) -> Scheme:
             raise SchemeError(f'{where}: field "fix": only a "custom" support takes a fix list')
         supports[nid] = Support(nid, kind, angle, fix)
 
+    from .underlay import check_underlay  # local: underlay imports SchemeError from here
+
+    check_underlay(data)  # validates the optional "underlay" block
     extra = {key: data[key] for key in EXTRA_KEYS if key in data}
     return Scheme(nodes, members, supports, title, units, extra)
 
