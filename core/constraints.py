@@ -45,7 +45,7 @@ import scipy.sparse.linalg as spla
 from .model import Scheme, arc_end_angle
 
 #: models with at most this many unknowns use dense linear algebra
-DENSE_MAX_VARS = 600
+DENSE_MAX_VARS = 150
 #: rank decisions on Phi_q with at most this many entries use a dense SVD
 DENSE_MAX_ENTRIES = 250_000
 
@@ -349,6 +349,25 @@ class ConstraintModel:
 
     def jac(self, q: np.ndarray) -> sp.csr_matrix:
         """Phi_q as a sparse (rows x n) matrix."""
+        I, J, V = self._jac_triplets(q)
+        if I.size == 0:
+            return sp.csr_matrix((self.r, self.n))
+        Jm = sp.csr_matrix((V, (I, J)), shape=(self.r, self.n))
+        Jm.sum_duplicates()
+        return Jm
+
+    def jac_dense(self, q: np.ndarray) -> np.ndarray:
+        """Phi_q as a dense array (for small models, where sparse bookkeeping costs more than it saves)."""
+        I, J, V = self._jac_triplets(q)
+        M = np.zeros((self.r, self.n))
+        np.add.at(M, (I, J), V)
+        return M
+
+    def jacobian(self, q: np.ndarray):
+        """Phi_q, dense for models of at most DENSE_MAX_VARS unknowns, else sparse."""
+        return self.jac_dense(q) if self.n <= DENSE_MAX_VARS else self.jac(q)
+
+    def _jac_triplets(self, q: np.ndarray):
         P, Rs, Pth = self._att(q)
         I: list[np.ndarray] = []
         J: list[np.ndarray] = []
@@ -385,10 +404,8 @@ class ConstraintModel:
         if rr.size:
             put_att(rr, a, dvec)
         if not I:
-            return sp.csr_matrix((self.r, self.n))
-        Jm = sp.csr_matrix((np.concatenate(V), (np.concatenate(I), np.concatenate(J))), shape=(self.r, self.n))
-        Jm.sum_duplicates()
-        return Jm
+            return np.zeros(0, int), np.zeros(0, int), np.zeros(0)
+        return np.concatenate(I), np.concatenate(J), np.concatenate(V)
 
     def second(self, q: np.ndarray, d: np.ndarray) -> np.ndarray:
         """Exact second directional derivative ``Phi''(q)[d, d]`` (one value per row)."""
@@ -495,11 +512,12 @@ class ConstraintModel:
         prev = math.inf
         for it in range(1, max_iter + 1):
             F = self.phi(y)
-            Jm = self.jac(y)
+            Jm = self.jacobian(y)
             if extra is not None:
                 t, c = extra
                 F = np.append(F, t @ y - c)
-                Jm = sp.vstack([Jm, sp.csr_matrix(t[None, :])]).tocsr()
+                Jm = np.vstack([Jm, t[None, :]]) if isinstance(Jm, np.ndarray) else \
+                    sp.vstack([Jm, sp.csr_matrix(t[None, :])]).tocsr()
             res = float(np.max(np.abs(F))) if F.size else 0.0
             if res <= tol * scale:
                 return y, True, it - 1, res
@@ -534,8 +552,9 @@ def lsq_step(Jm: sp.spmatrix, F: np.ndarray) -> np.ndarray:
     ``dy = J^T (J J^T + mu I)^-1 F``.
     """
     rows, n = Jm.shape
-    if n <= DENSE_MAX_VARS:
-        dy, *_ = np.linalg.lstsq(Jm.toarray(), F, rcond=1e-12)
+    if isinstance(Jm, np.ndarray) or n <= DENSE_MAX_VARS:
+        M = Jm if isinstance(Jm, np.ndarray) else Jm.toarray()
+        dy, *_ = np.linalg.lstsq(M, F, rcond=1e-12)
         return dy
     if rows == n:
         try:

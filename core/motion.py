@@ -124,7 +124,7 @@ def _piece_json(p: Piece) -> dict:
 # ---------------------------------------------------------------------- helpers
 def tangent(model: ConstraintModel, y: np.ndarray, t_prev: np.ndarray) -> tuple[np.ndarray | None, float]:
     """``t_prev`` projected onto null(Phi_q(y)), normalised; and the cosine of the turn."""
-    J = model.jac(y)
+    J = model.jacobian(y)
     dx = lsq_step(J, J @ t_prev) if model.r else np.zeros_like(t_prev)
     t = t_prev - dx
     n = float(np.linalg.norm(t))
@@ -282,7 +282,7 @@ class Tracer:
         m = self.model
         if m.r != m.n - 1 or m.n > DENSE_MAX_VARS:
             return None
-        M = np.vstack([m.jac(q).toarray(), t[None, :]])
+        M = np.vstack([m.jac_dense(q), t[None, :]])
         sign, logdet = np.linalg.slogdet(M)
         # relative to Hadamard's bound: a determinant this small is a singular point
         bound = float(np.sum(np.log(np.maximum(np.linalg.norm(M, axis=1), 1e-300))))
