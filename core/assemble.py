@@ -72,6 +72,9 @@ class System:
     findings: list[Finding] = field(default_factory=list)
     #: reaction columns that count in the hand count (effective restraints)
     n_reactions: int = 0
+    #: all node ids in model order, and per member the indices of its end nodes in it
+    node_ids: list[str] = field(default_factory=list)
+    member_ends: np.ndarray | None = None
 
     @property
     def shape(self) -> tuple[int, int]:
@@ -271,7 +274,8 @@ def assemble(scheme: Scheme) -> System:
     A = sp.csc_matrix((Vall[keep], (Iall[keep], Jall[keep])), shape=(len(rows), len(cols)))
     A.sum_duplicates()
     return System(A, rows, cols, node_dof, member_cols, reaction_cols, release_rows, lref, active,
-                  _pieces(scheme, active), findings, n_reactions)
+                  _pieces(scheme, active), findings, n_reactions, node_ids,
+                  np.stack([si, ei], axis=1) if nm else np.zeros((0, 2), int))
 
 
 def _clean(v: float) -> float:

@@ -97,15 +97,23 @@ def _num(x: float):
     return None if x is None or not math.isfinite(x) else float(x)
 
 
+def _node_arrays(system: System, scheme: Scheme):
+    ids = list(system.node_dof)
+    dof = np.array([system.node_dof[n][:2] for n in ids], int).reshape(-1, 2)
+    th = np.array([-1 if system.node_dof[n][2] is None else system.node_dof[n][2] for n in ids], int)
+    xy = np.array([scheme.node_xy(n) for n in ids], float).reshape(-1, 2)
+    return ids, dof, th, xy
+
+
 def rigid_body_fields(system: System, scheme: Scheme) -> np.ndarray:
     """The three rigid-body motions of the whole scheme as row-space vectors (rows x 3)."""
     T = np.zeros((system.shape[0], 3))
-    for nid, (iu, iv, it) in system.node_dof.items():
-        x, y = scheme.node_xy(nid)
-        T[iu] = (1.0, 0.0, -y)
-        T[iv] = (0.0, 1.0, x)
-        if it is not None:
-            T[it] = (0.0, 0.0, system.lref)
+    _, dof, th, xy = _node_arrays(system, scheme)
+    T[dof[:, 0], 0] = 1.0
+    T[dof[:, 0], 2] = -xy[:, 1]
+    T[dof[:, 1], 1] = 1.0
+    T[dof[:, 1], 2] = xy[:, 0]
+    T[th[th >= 0], 2] = system.lref
     return T
 
 
@@ -120,15 +128,19 @@ def _all_rigidly_jointed(scheme: Scheme, system: System) -> bool:
 
 def piece_rigid_fields(system: System, scheme: Scheme) -> np.ndarray:
     """Rigid-body motions of each connected piece separately (rows x 3 * pieces)."""
-    T = np.zeros((system.shape[0], 3 * len(system.pieces)))
+    ids, dof, th, xy = _node_arrays(system, scheme)
+    piece_of = {}
     for k, piece in enumerate(system.pieces):
         for nid in piece:
-            iu, iv, it = system.node_dof[nid]
-            x, y = scheme.node_xy(nid)
-            T[iu, 3 * k:3 * k + 3] = (1.0, 0.0, -y)
-            T[iv, 3 * k:3 * k + 3] = (0.0, 1.0, x)
-            if it is not None:
-                T[it, 3 * k + 2] = system.lref
+            piece_of[nid] = k
+    pk = np.array([piece_of[n] for n in ids], int)
+    T = np.zeros((system.shape[0], 3 * len(system.pieces)))
+    T[dof[:, 0], 3 * pk] = 1.0
+    T[dof[:, 0], 3 * pk + 2] = -xy[:, 1]
+    T[dof[:, 1], 3 * pk + 1] = 1.0
+    T[dof[:, 1], 3 * pk + 2] = xy[:, 0]
+    has = th >= 0
+    T[th[has], 3 * pk[has] + 2] = system.lref
     return T
 
 

@@ -84,27 +84,38 @@ def _collinear_joints(scheme: Scheme, system, rel_tol: float) -> list[tuple[str,
 
 
 def _collinear_candidates(scheme: Scheme, system) -> list[tuple[str, str, str, float]]:
-    out = []
+    """Pinned joints joining exactly two straight members, with their offset from the line."""
+    me = system.member_ends
+    nn = len(system.node_ids)
+    deg = np.bincount(me.ravel(), minlength=nn) if me.size else np.zeros(nn, int)
+    two = set(np.nonzero(deg == 2)[0].tolist())
     ends: dict[str, list[str]] = {}
-    for m in scheme.members.values():
-        ends.setdefault(m.start, []).append(m.id)
-        ends.setdefault(m.end, []).append(m.id)
+    mids = list(scheme.members)
+    for k in np.nonzero(np.isin(me[:, 0], list(two)) | np.isin(me[:, 1], list(two)))[0].tolist():
+        for idx in me[k].tolist():
+            if idx in two:
+                ends.setdefault(system.node_ids[idx], []).append(mids[k])
+    cand = [(nid, ms) for nid, ms in ends.items()
+            if len(ms) == 2 and system.node_dof[nid][2] is None]
+    if not cand:
+        return []
+    mem = scheme.members
+    P = np.array([scheme.node_xy(nid) for nid, _ in cand])
+    PA = np.array([scheme.node_xy(mem[a].other_end(nid)) for nid, (a, b) in cand])
+    PB = np.array([scheme.node_xy(mem[b].other_end(nid)) for nid, (a, b) in cand])
+    D = PB - PA
+    L = np.hypot(D[:, 0], D[:, 1])
+    Ls = np.where(L > 0, L, 1.0)
+    W = P - PA
+    off = np.abs(D[:, 0] * W[:, 1] - D[:, 1] * W[:, 0]) / Ls
+    between = (W[:, 0] * D[:, 0] + W[:, 1] * D[:, 1]) / (Ls * Ls)
     size = scheme.size()
-    for nid, mids in ends.items():
-        if len(mids) != 2 or system.node_dof[nid][2] is not None:
-            continue
-        a, b = (scheme.members[k] for k in mids)
-        pa = np.array(scheme.node_xy(a.other_end(nid)))
-        pb = np.array(scheme.node_xy(b.other_end(nid)))
-        p = np.array(scheme.node_xy(nid))
-        d = pb - pa
-        L = float(np.linalg.norm(d))
-        if L == 0:
-            continue
-        off = abs(float(np.cross(d, p - pa))) / L
-        between = float((p - pa) @ d) / (L * L)
-        if off <= 1e-3 * size and 0 < between < 1 and a.rise == 0 and b.rise == 0:
-            out.append((nid, a.id, b.id, off))
+    keep = np.nonzero((L > 0) & (off <= 1e-3 * size) & (between > 0) & (between < 1))[0]
+    out = []
+    for k in keep.tolist():
+        nid, (a, b) = cand[k]
+        if mem[a].rise == 0 and mem[b].rise == 0:
+            out.append((nid, a, b, float(off[k])))
     return out
 
 

@@ -165,6 +165,12 @@ def _ldl_inertia(K: sp.csc_matrix, tau: float):
     return int(np.count_nonzero(d < 0)), lu
 
 
+def _orth(X: np.ndarray) -> np.ndarray:
+    """Orthonormal basis of the columns of a tall block (Householder QR)."""
+    Q, _ = la.qr(X, mode="economic", check_finite=False)
+    return Q
+
+
 def _ritz_null(B: sp.spmatrix, gram: sp.spmatrix, lu, k: int, smax: float,
                max_sweeps: int = 40) -> tuple[np.ndarray, np.ndarray]:
     """Block inverse iteration with the factors ``lu`` of ``gram - tau I`` (gram = B^T B).
@@ -176,10 +182,10 @@ def _ritz_null(B: sp.spmatrix, gram: sp.spmatrix, lu, k: int, smax: float,
     n = gram.shape[0]
     k = min(k, n)
     rng = np.random.default_rng(12345)
-    X, _ = np.linalg.qr(rng.standard_normal((n, k)))
+    X = _orth(rng.standard_normal((n, k)))
     prev = None
     for sweep in range(max_sweeps):
-        X, _ = np.linalg.qr(lu.solve(X))
+        X = _orth(lu.solve(X))
         H = X.T @ (gram @ X)
         _, Q = np.linalg.eigh((H + H.T) / 2)
         X = X @ Q
@@ -190,7 +196,8 @@ def _ritz_null(B: sp.spmatrix, gram: sp.spmatrix, lu, k: int, smax: float,
             break
         prev = (nz, np.sort(resid))
     # the SVD of B X separates exact null directions from soft ones inside the block
-    _, sy, Vyt = la.svd(B @ X, full_matrices=False)
+    _, Ry = la.qr(B @ X, mode="economic", check_finite=False)
+    _, sy, Vyt = la.svd(Ry, check_finite=False)
     order = np.argsort(sy)
     Xo = X @ Vyt.T[:, order]
     return Xo, sy[order] / smax
@@ -262,7 +269,7 @@ def sparse_rank(A: sp.csc_matrix, want_mech: bool = True, max_basis: int = 64,
         good = int(np.count_nonzero(r <= 10 * ZERO_RTOL))
         basis = X[:, :min(good, m, max_modes)]
     if basis is not None and basis.shape[1]:
-        basis, _ = np.linalg.qr(basis)
+        basis = _orth(basis)
     elif m == 0:
         basis = np.zeros((rows, 0))
     return RankResult(rows - m, m, cols - rows + m, smax, kept, nxt, basis, None, route, soft, gap)

@@ -117,7 +117,7 @@ def without_restraint(scheme: Scheme, node: str, word: str) -> Scheme:
 def direction_words(angle: float) -> str:
     """'vertical', 'horizontal' or 'at 30°' for a reaction direction given in degrees."""
     a = angle % 180.0
-    if min(abs(a - 90.0), 0.0) == 0.0 and abs(a - 90.0) < 1e-9:
+    if abs(a - 90.0) < 1e-9:
         return "vertical"
     if a < 1e-9 or abs(a - 180.0) < 1e-9:
         return "horizontal"
@@ -201,17 +201,19 @@ class GreedyBasis:
 
 
 def greedy_basis(A, order, rtol: float = DEPENDENT_RTOL, block: int = 48) -> GreedyBasis:
-    """Scan the columns of ``A`` in ``order`` and keep each one independent of those kept before.
+    """Scan the columns of ``A`` in ``order``; keep each one independent of those kept before it.
 
-    The greedy algorithm of a linear matroid (Rado-Edmonds): the kept set is the basis that
-    is lexicographically first in the scan order; every skipped column depends only on kept
-    columns scanned before it.  Blocked classical Gram-Schmidt, each projection applied
-    twice ("twice is enough", Giraud, Langou & Rozloznik 2005).
+    The greedy algorithm of a linear matroid (Rado 1957, Edmonds 1971): the kept set is the
+    basis that comes first in the scan order, and every skipped column depends only on kept
+    columns scanned before it.  Blocked classical Gram-Schmidt with every projection applied
+    twice ("twice is enough": L. Giraud, J. Langou, M. Rozloznik (2005), Comput. Math. Appl.
+    50, 1069-1075).
     """
     M = A.toarray() if sp.issparse(A) else np.asarray(A, float)
     rows = M.shape[0]
     order = [int(c) for c in order]
-    Q = np.zeros((rows, min(rows, len(order))))
+    cap = min(rows, len(order))
+    Q = np.zeros((rows, cap))
     k = 0
     coef: dict[int, np.ndarray] = {}
     kept: list[int] = []
@@ -220,7 +222,7 @@ def greedy_basis(A, order, rtol: float = DEPENDENT_RTOL, block: int = 48) -> Gre
         idx = order[b0:b0 + block]
         C = M[:, idx].copy()
         norms = np.linalg.norm(C, axis=0)
-        H = np.zeros((Q.shape[1], len(idx)))
+        H = np.zeros((cap, len(idx)))
         if k:
             Qk = Q[:, :k]
             h1 = Qk.T @ C
@@ -228,28 +230,19 @@ def greedy_basis(A, order, rtol: float = DEPENDENT_RTOL, block: int = 48) -> Gre
             h2 = Qk.T @ C
             C -= Qk @ h2
             H[:k] = h1 + h2
-        for j, c in enumerate(idx):
-            v = C[:, j]
-            k0 = H.shape[0] and k
-            # vectors added within this block
-            start = k - sum(1 for cc in kept if cc in idx[:j]) if False else None
-            new = [kk for kk in range(k) if kk >= k_block_start] if False else None
-            coef[c] = H[:, j]
-            del k0, start, new
-        # sequential pass inside the block
         k_block = k
         for j, c in enumerate(idx):
-            v = C[:, j].copy()
-            h = H[:, j].copy()
+            v = C[:, j]
+            h = H[:, j]
             if k > k_block:
                 Qb = Q[:, k_block:k]
                 g1 = Qb.T @ v
-                v -= Qb @ g1
+                v = v - Qb @ g1
                 g2 = Qb.T @ v
-                v -= Qb @ g2
+                v = v - Qb @ g2
                 h[k_block:k] += g1 + g2
             r = float(np.linalg.norm(v))
-            if norms[j] > 0 and r > rtol * norms[j] and k < Q.shape[1]:
+            if norms[j] > 0 and r > rtol * norms[j] and k < cap:
                 Q[:, k] = v / r
                 h[k] = r
                 k += 1
@@ -257,11 +250,376 @@ def greedy_basis(A, order, rtol: float = DEPENDENT_RTOL, block: int = 48) -> Gre
             else:
                 redundant.append(c)
             coef[c] = h
-    Q = Q[:, :k]
     R = np.zeros((k, k))
     for j, c in enumerate(kept):
         R[:, j] = coef[c][:k]
     Hr = np.zeros((k, len(redundant)))
     for j, c in enumerate(redundant):
         Hr[:, j] = coef[c][:k]
-    return GreedyBasis(kept, redundant, Q, R, Hr)
+    return GreedyBasis(kept, redundant, Q[:, :k].copy(), R, Hr)
+
+
+def basis_from_columns(A, kept, redundant) -> GreedyBasis:
+    """The same data for a given split of the columns (``kept`` must be independent)."""
+    M = A.toarray() if sp.issparse(A) else np.asarray(A, float)
+    kept = [int(c) for c in kept]
+    redundant = [int(c) for c in redundant]
+    if kept:
+        Q, R = la.qr(M[:, kept], mode="economic")
+    else:
+        Q, R = np.zeros((M.shape[0], 0)), np.zeros((0, 0))
+    H = Q.T @ M[:, redundant] if redundant else np.zeros((len(kept), 0))
+    return GreedyBasis(kept, redundant, Q, R, H)
+
+
+# --------------------------------------------------------------------------- states
+@dataclass(frozen=True)
+class SelfStressState:
+    """One state of self-stress: the forces of the members and reactions it involves.
+
+    Member forces are N and, for beams, the end moments as M / Lref (unit-free; the state is
+    defined up to a factor, scaled here so the largest entry is 1).  N > 0 is tension.
+    """
+
+    index: int
+    #: the column the sweep found dependent: (kind, item, detail)
+    key: tuple[str, str, str]
+    forces: dict[str, dict[str, float]]
+    reactions: dict[str, dict[str, float]]
+
+    @property
+    def members(self) -> tuple[str, ...]:
+        return tuple(self.forces)
+
+    @property
+    def supports(self) -> tuple[str, ...]:
+        return tuple(self.reactions)
+
+    def axial_sign(self, member_id: str) -> str:
+        n = self.forces.get(member_id, {}).get("N", 0.0)
+        return "tension" if n > 0 else ("compression" if n < 0 else "none")
+
+    def to_json(self) -> dict:
+        kind, item, detail = self.key
+        return {
+            "members": list(self.forces),
+            "supports": list(self.reactions),
+            "forces": {k: {f: _r(v) for f, v in d.items()} for k, d in self.forces.items()},
+            "reactions": {k: {f: _r(v) for f, v in d.items()} for k, d in self.reactions.items()},
+            "tension": [k for k in self.forces if self.axial_sign(k) == "tension"],
+            "compression": [k for k in self.forces if self.axial_sign(k) == "compression"],
+            "key": f"{item}:{detail or kind}",
+        }
+
+
+def _r(v: float) -> float:
+    v = float(v)
+    return 0.0 if abs(v) < 1e-12 else round(v, 12)
+
+
+def normalise_states(S: np.ndarray) -> np.ndarray:
+    """Scale each state so its largest entry is +1 (first such entry in column order); clean zeros."""
+    S = S.copy()
+    for j in range(S.shape[1]):
+        col = S[:, j]
+        mx = float(np.abs(col).max()) if col.size else 0.0
+        if mx == 0:
+            continue
+        col /= mx
+        col[np.abs(col) < CLEAN_RTOL] = 0.0
+        first = int(np.nonzero(np.abs(col) >= 1.0 - 1e-9)[0][0])
+        if col[first] < 0:
+            col *= -1.0
+        S[:, j] = col
+    return S
+
+
+def order_states(S: np.ndarray, order: np.ndarray) -> tuple[np.ndarray, list[int]]:
+    """States sorted along the sweep (by their first and last column in it); key = largest entry."""
+    if S.shape[1] == 0:
+        return S, []
+    pos = np.empty(len(order), int)
+    pos[order] = np.arange(len(order))
+    keys = []
+    sort_keys = []
+    for j in range(S.shape[1]):
+        nz = np.nonzero(S[:, j])[0]
+        big = nz[np.abs(S[nz, j]) >= 1.0 - 1e-9]
+        key = int(big[np.argmin(pos[big])]) if big.size else int(nz[0])
+        keys.append(key)
+        sort_keys.append((int(pos[nz].min()), int(pos[nz].max()), int(pos[key])))
+    perm = sorted(range(S.shape[1]), key=lambda j: sort_keys[j])
+    return S[:, perm], [keys[j] for j in perm]
+
+
+def states_from_basis(system: System, S: np.ndarray, keys: list[int]) -> list[SelfStressState]:
+    out = []
+    for j in range(S.shape[1]):
+        forces: dict[str, dict[str, float]] = {}
+        reactions: dict[str, dict[str, float]] = {}
+        for c in np.nonzero(S[:, j])[0].tolist():
+            kind, item, detail = system.cols[c]
+            if kind == "reaction":
+                reactions.setdefault(item, {})[detail] = float(S[c, j])
+            else:
+                forces.setdefault(item, {})[kind] = float(S[c, j])
+        # members in scheme order, reactions in support order
+        forces = {mid: forces[mid] for mid in system.member_cols if mid in forces}
+        reactions = {n: reactions[n] for n in system.reaction_cols if n in reactions}
+        out.append(SelfStressState(j, system.cols[keys[j]], forces, reactions))
+    return out
+
+
+def _column_nodes(system: System, scheme: Scheme) -> list[tuple[str, ...]]:
+    out = []
+    for kind, item, _ in system.cols:
+        if kind == "reaction":
+            out.append((item,))
+        else:
+            m = scheme.members[item]
+            out.append((m.start, m.end))
+    return out
+
+
+def localise_states(scheme: Scheme, system: System, gb: GreedyBasis, order: np.ndarray) -> np.ndarray:
+    """One local state of self-stress per redundant column of ``gb`` (cols x s).
+
+    For a redundant column c the search grows a ball of nodes around c's nodes, one member
+    step at a time, and scans the columns inside the ball (nearest first, then in sweep
+    order) with the greedy basis; as soon as c depends on them, its fundamental circuit in
+    the ball is a minimal dependent set of forces close to c.  Only kept columns and
+    redundant columns earlier in the sweep may take part, so the states form a triangular
+    system on the redundant columns and are independent.  A heuristic for a sparse null
+    basis (finding the sparsest one is NP-hard: T. F. Coleman & A. Pothen (1986), "The null
+    space problem I. Complexity", SIAM J. Alg. Disc. Meth. 7(4), 527-537).
+    """
+    ncols = len(system.cols)
+    if not gb.redundant:
+        return np.zeros((ncols, 0))
+    S_global = None
+    A = system.A.tocsc()
+    A.sort_indices()
+    Ad = A.toarray()
+    col_rows = [A.indices[A.indptr[c]:A.indptr[c + 1]] for c in range(ncols)]
+    col_nodes = _column_nodes(system, scheme)
+    adj: dict[str, set[str]] = {}
+    for m in scheme.members.values():
+        adj.setdefault(m.start, set()).add(m.end)
+        adj.setdefault(m.end, set()).add(m.start)
+    cols_at: dict[str, list[int]] = {}
+    for c, ns in enumerate(col_nodes):
+        for n in ns:
+            cols_at.setdefault(n, []).append(c)
+    pos = np.empty(ncols, int)
+    pos[order] = np.arange(ncols)
+    allowed = np.zeros(ncols, bool)
+    allowed[gb.kept] = True
+    S = np.zeros((ncols, len(gb.redundant)))
+    for j, c in enumerate(gb.redundant):
+        dist = {n: 0 for n in col_nodes[c]}
+        frontier = list(dist)
+        found = None
+        r = 0
+        while True:
+            # allowed columns with every node inside the ball
+            ball = {cc for n in dist for cc in cols_at.get(n, ())
+                    if allowed[cc] and all(x in dist for x in col_nodes[cc])}
+            if ball:
+                loc = sorted(ball, key=lambda cc: (max(dist[x] for x in col_nodes[cc]), pos[cc]))
+                loc.append(c)
+                rows = np.unique(np.concatenate([col_rows[cc] for cc in loc]))
+                g = greedy_basis(Ad[np.ix_(rows, loc)], range(len(loc)))
+                if g.redundant and g.redundant[-1] == len(loc) - 1:
+                    # the fundamental circuit of c among the ball's columns
+                    x = la.solve_triangular(g.R, g.H[:, -1], lower=False) if g.kept else np.zeros(0)
+                    found = np.zeros(ncols)
+                    found[[loc[k] for k in g.kept]] = -x
+                    found[c] = 1.0
+                    break
+            r += 1
+            nxt = []
+            for n in frontier:
+                for nb in adj.get(n, ()):
+                    if nb not in dist:
+                        dist[nb] = r
+                        nxt.append(nb)
+            if not nxt:
+                break
+            frontier = nxt
+        if found is None:
+            if S_global is None:
+                S_global = gb.states(ncols)
+            found = S_global[:, j]
+        S[:, j] = found
+        allowed[c] = True
+    return S
+
+
+def local_basis(scheme: Scheme, system: System, rank: int) -> GreedyBasis:
+    """Greedy basis in the sweep order, with ``rank`` kept columns (the engine's rank)."""
+    order = sweep_order(scheme, system)
+    gb = None
+    for rtol in (DEPENDENT_RTOL, 1e-7, 1e-11, 1e-6):
+        gb = greedy_basis(system.A, order, rtol)
+        if len(gb.kept) == rank:
+            return gb
+    # the scan disagrees with the engine's rank (ill-conditioned geometry): take the columns
+    # of a pivoted QR, scanned in the sweep order within each part
+    M = system.A.toarray()
+    _, _, perm = la.qr(M, pivoting=True, mode="r")
+    pos = np.empty(len(order), int)
+    pos[order] = np.arange(len(order))
+    kept = sorted(perm[:rank].tolist(), key=lambda c: pos[c])
+    red = sorted(perm[rank:].tolist(), key=lambda c: pos[c])
+    return basis_from_columns(M, kept, red)
+
+
+# --------------------------------------------------------------------------- flexibility
+def member_flexibility(m: Member, L: float) -> np.ndarray:
+    """Flexibility block of one member in the scaled variables (1 x 1 bar, 3 x 3 beam)."""
+    ea = float(m.axial_stiffness)
+    if not (ea > 0 and math.isfinite(ea)):
+        raise ValueError(f'member "{m.id}": field "stiffness.axial" must be positive, got {ea}')
+    if m.kind != "beam":
+        return np.array([[L / ea]])
+    k = DEFAULT_BENDING if m.bending_stiffness is None else float(m.bending_stiffness)
+    if not (k > 0 and math.isfinite(k)):
+        raise ValueError(f'member "{m.id}": field "stiffness.bending" must be positive, got {k}')
+    b = L / (6.0 * k * ea)
+    return np.array([[L / ea, 0.0, 0.0], [0.0, 2 * b, -b], [0.0, -b, 2 * b]])
+
+
+def flexibility(scheme: Scheme, system: System, support_flexibility: float = 0.0) -> sp.csr_matrix:
+    """Block-diagonal flexibility F (cols x cols) of the columns of A (see module docstring)."""
+    n = len(system.cols)
+    I, J, V = [], [], []
+    eas = []
+    for mid, cols in system.member_cols.items():
+        m = scheme.members[mid]
+        (x0, y0), (x1, y1) = scheme.node_xy(m.start), scheme.node_xy(m.end)
+        blk = member_flexibility(m, math.hypot(x1 - x0, y1 - y0))
+        eas.append(m.axial_stiffness)
+        for a, ca in enumerate(cols):
+            for b, cb in enumerate(cols):
+                if blk[a, b] != 0.0:
+                    I.append(ca); J.append(cb); V.append(blk[a, b])
+    if support_flexibility:
+        f = float(support_flexibility) * system.lref / (float(np.mean(eas)) if eas else 1.0)
+        for cols in system.reaction_cols.values():
+            for c in cols:
+                I.append(c); J.append(c); V.append(f)
+    return sp.csr_matrix((V, (I, J)), shape=(n, n))
+
+
+# --------------------------------------------------------------------------- redundancy
+@dataclass
+class Redundancy:
+    """The redundancy distribution of a scheme (see module docstring)."""
+
+    mechanisms: int
+    self_stress: int
+    system: System
+    #: canonical states (cols x s), scaled; and as objects
+    basis: np.ndarray
+    states: list[SelfStressState]
+    #: orthonormal basis of the same space
+    orthonormal: np.ndarray
+    #: diagonal of R per column of A
+    diagonal: np.ndarray
+    members: dict[str, float]
+    members_detail: dict[str, dict[str, float]]
+    members_modes: dict[str, dict[str, float]]
+    supports: dict[str, float]
+    supports_detail: dict[str, dict[str, float]]
+    support_flexibility: float = 0.0
+    #: F S and S (S^T F S)^-1 for the full matrix on demand
+    _FS: np.ndarray | None = field(default=None, repr=False)
+    _X: np.ndarray | None = field(default=None, repr=False)
+
+    @property
+    def total(self) -> float:
+        return float(self.diagonal.sum())
+
+    def matrix(self) -> np.ndarray:
+        """The full redundancy matrix R (cols x cols); R[i, j] is the elastic deformation in
+        column i caused by a unit imposed deformation in column j, with the sign reversed."""
+        if self._FS is None:
+            return np.zeros((len(self.system.cols),) * 2)
+        return self._FS @ self._X.T
+
+    def member_block(self, member_id: str) -> np.ndarray:
+        cols = self.system.member_cols[member_id]
+        if self._FS is None:
+            return np.zeros((len(cols), len(cols)))
+        return self._FS[cols] @ self._X[cols].T
+
+    def to_json(self) -> dict:
+        return {
+            "members": {k: _r(v) for k, v in self.members.items()},
+            "supports": {k: _r(v) for k, v in self.supports.items()},
+            "members_detail": {k: {f: _r(v) for f, v in d.items()} for k, d in self.members_detail.items()},
+            "members_modes": {k: {f: _r(v) for f, v in d.items()} for k, d in self.members_modes.items()},
+            "supports_detail": {k: {f: _r(v) for f, v in d.items()} for k, d in self.supports_detail.items()},
+            "total": _r(self.total),
+            "self_stress": self.self_stress,
+            "reactions": "rigid" if not self.support_flexibility else
+                         f"elastic ({self.support_flexibility:g} x a unit-EA bar of length Lref)",
+            "bending_default": DEFAULT_BENDING,
+        }
+
+
+def _natural_modes(blk: np.ndarray) -> dict[str, float]:
+    """Diagonal of a beam's 3 x 3 block of R in its natural modes (axial, single, double curvature)."""
+    h = 1.0 / math.sqrt(2.0)
+    Qm = np.array([[1.0, 0.0, 0.0], [0.0, h, h], [0.0, -h, h]])  # columns: axial, Mi=-Mj, Mi=Mj
+    d = np.einsum("ij,ik,kj->j", Qm, blk, Qm)
+    return dict(zip(MODE_NAMES, map(float, d)))
+
+
+def redundancy(scheme: Scheme, classification: Classification | None = None, *,
+               support_flexibility: float = 0.0) -> Redundancy:
+    """Canonical states of self-stress and the redundancy distribution of ``scheme``.
+
+    Method: von Scheven, Ramm & Bischoff (2021), self-stress form R = F S (S^T F S)^-1 S^T.
+    """
+    c = classification if classification is not None else classify(scheme)
+    system = c.system
+    ncols = len(system.cols)
+    s = c.self_stress
+    gb = local_basis(scheme, system, c.rank.rank) if ncols else GreedyBasis([], [], np.zeros((0, 0)),
+                                                                             np.zeros((0, 0)), np.zeros((0, 0)))
+    order = sweep_order(scheme, system)
+    S = normalise_states(localise_states(scheme, system, gb, order)) if ncols else np.zeros((0, 0))
+    S, keys = order_states(S, order)
+    states = states_from_basis(system, S, keys)
+    diag = np.zeros(ncols)
+    FS = X = None
+    Qs = np.zeros((ncols, 0))
+    if S.shape[1]:
+        Qs, _ = la.qr(S, mode="economic")
+        F = flexibility(scheme, system, support_flexibility)
+        FS = np.asarray(F @ Qs)
+        G = Qs.T @ FS
+        G = (G + G.T) / 2
+        try:
+            cf = la.cho_factor(G)
+            X = la.cho_solve(cf, Qs.T).T
+        except la.LinAlgError:
+            X = (np.linalg.pinv(G) @ Qs.T).T
+        diag = np.einsum("ij,ij->i", FS, X)
+    members, detail, modes = {}, {}, {}
+    for mid, cols in system.member_cols.items():
+        vals = diag[cols]
+        members[mid] = float(vals.sum())
+        detail[mid] = {FORCE_NAMES[k]: float(v) for k, v in enumerate(vals)}
+        if len(cols) == 3:
+            blk = FS[cols] @ X[cols].T if FS is not None else np.zeros((3, 3))
+            modes[mid] = _natural_modes(blk)
+        else:
+            modes[mid] = {"axial": float(vals[0])}
+    supports, sdetail = {}, {}
+    for nid, cols in system.reaction_cols.items():
+        supports[nid] = float(diag[cols].sum()) if cols else 0.0
+        sdetail[nid] = {system.cols[cc][2]: float(diag[cc]) for cc in cols}
+    return Redundancy(c.mechanisms, s, system, S, states, Qs, diag, members, detail, modes, supports, sdetail,
+                      float(support_flexibility), FS, X)
