@@ -206,13 +206,14 @@ def classify(scheme: Scheme, *, bases: bool = False, max_modes: int = 12) -> Cla
     # node), which stops exactly its rigid-body motions: its m is the internal mechanisms and
     # its s the self-stress that needs no reactions.
     T = rigid_body_fields(system, scheme)
-    AtT = A.T @ T
+    Ar = A[:, [c for c, (k, _, _) in enumerate(system.cols) if k == "reaction"]]
+    # m_rigid = 3 - rank(A_reactions^T T) (Pellegrino & Calladine 1986)
+    AtT = Ar.T @ T
     sv = np.linalg.svd(AtT, compute_uv=False) if AtT.size else np.zeros(0)
     tol = 1e-9 * max(1.0, float(sv.max()) if sv.size else 1.0)
     rigid_m = 3 - int(np.count_nonzero(sv > tol)) if rows else 0
     Tp = piece_rigid_fields(system, scheme)
-    n_reac = sum(len(v) for v in system.reaction_cols.values())
-    Ar = A[:, [c for c, (k, _, _) in enumerate(system.cols) if k == "reaction"]]
+    n_reac = Ar.shape[1]
     n_mcols = len(system.cols) - n_reac
     if n_reac == Tp.shape[1] and n_reac and np.linalg.matrix_rank((Ar.T @ Tp), tol=1e-9) == n_reac:
         internal_m, internal_s = m, s

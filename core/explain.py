@@ -288,7 +288,8 @@ def _hinges_in_line(scheme: Scheme, system, candidates: list[str]):
                 L = float(np.linalg.norm(d))
                 if L == 0:
                     continue
-                off = abs(float(np.cross(d, p - pa))) / L
+                q = p - pa
+                off = abs(float(d[0] * q[1] - d[1] * q[0])) / L
                 if off <= 1e-3 * size and (best is None or off < best[3]):
                     best = (h, a, b, off)
     return best

@@ -90,8 +90,9 @@ def decide_zero_count(values: np.ndarray, sigma_max: float) -> tuple[int, float]
     by_level = int(np.searchsorted(v, ZERO_RTOL, side="right"))
     upper = np.append(v[1:], math.inf)
     ratios = upper / np.maximum(v, 1e-300)
-    # splits whose lower side is plausibly a rounded zero
-    ok = np.nonzero((v <= 10 * ZERO_RTOL) & (ratios >= GAP_MIN))[0]
+    # splits whose lower side is plausibly a rounded zero and whose upper side is above the
+    # zero level: the gap may extend the zero set up to 10x the level, never cut inside it
+    ok = np.nonzero((v <= 10 * ZERO_RTOL) & (upper > ZERO_RTOL) & (ratios >= GAP_MIN))[0]
     if ok.size:
         k = int(ok[np.argmax(ratios[ok])])
         return k + 1, float(ratios[k])

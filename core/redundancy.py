@@ -623,3 +623,187 @@ def redundancy(scheme: Scheme, classification: Classification | None = None, *,
         sdetail[nid] = {system.cols[cc][2]: float(diag[cc]) for cc in cols}
     return Redundancy(c.mechanisms, s, system, S, states, Qs, diag, members, detail, modes, supports, sdetail,
                       float(support_flexibility), FS, X)
+
+
+# --------------------------------------------------------------------------- critical items
+@dataclass
+class RemovalCheck:
+    """What removing one member or one support restraint does."""
+
+    kind: str                    # "member" or "restraint"
+    item: str                    # member id, or "node:word" for a restraint
+    #: "critical" (the removal adds a mechanism), "removable" (it does not: the item carries
+    #: self-stress) or "non-redundant" (it carries none, yet the removal adds no mechanism
+    #: because the nodes only it reaches drop out with it)
+    status: str
+    value: float                 # its redundancy (sum over its forces)
+    mechanisms_before: int
+    mechanisms_after: int
+    self_stress_after: int
+    confirmed_by: str            # "classify" or "rank update"
+    scheme: Scheme               # the scheme without the item
+    description: str
+    detached: tuple[str, ...] = ()
+    #: the mechanism the removal creates (from the re-analysis), when confirmed by classify
+    mechanism: Mode | None = None
+
+    @property
+    def critical(self) -> bool:
+        return self.status == "critical"
+
+    def moving_nodes(self, tol: float = 1e-6) -> list[str]:
+        if self.mechanism is None:
+            return []
+        return [n for n, (u, v) in self.mechanism.displacements.items() if math.hypot(u, v) > tol]
+
+    def to_json(self) -> dict:
+        out = {"status": self.status, "redundancy": _r(self.value),
+               "mechanisms_after": self.mechanisms_after, "self_stress_after": self.self_stress_after,
+               "confirmed_by": self.confirmed_by, "description": self.description}
+        if self.detached:
+            out["detached_nodes"] = list(self.detached)
+        if self.mechanism is not None:
+            out["moving_nodes"] = self.moving_nodes()
+            out["mechanism_kind"] = self.mechanism.kind
+        return out
+
+
+@dataclass
+class Criticality:
+    members: dict[str, RemovalCheck]
+    restraints: dict[str, RemovalCheck]
+
+    def critical_members(self) -> list[str]:
+        return [k for k, v in self.members.items() if v.critical]
+
+    def critical_restraints(self) -> list[str]:
+        return [k for k, v in self.restraints.items() if v.critical]
+
+
+def _rank_rows(Qs: np.ndarray, cols: list[int]) -> int:
+    if not cols or Qs.shape[1] == 0:
+        return 0
+    sv = np.linalg.svd(Qs[cols, :], compute_uv=False)
+    return int(np.count_nonzero(sv > ZERO_VALUE))
+
+
+def _member_removal_effect(scheme: Scheme, system: System, mid: str,
+                           at: dict[str, list[Member]]) -> tuple[int, list[int], tuple[str, ...]]:
+    """Rows and columns of A that disappear with member ``mid``, as :func:`assemble` drops them.
+
+    Returns (number of rows dropped, columns dropped, nodes dropped); ``at`` maps each node
+    to the members that reach it.
+    """
+    m = scheme.members[mid]
+    rows_dropped = len(system.release_rows.get(mid, []))
+    cols = list(system.member_cols[mid])
+    detached = []
+    for nid, rel in ((m.start, m.releases_start), (m.end, m.releases_end)):
+        others = [x for x in at[nid] if x.id != mid]
+        it = system.node_dof[nid][2]
+        if not others:
+            detached.append(nid)
+            rows_dropped += 2 + (it is not None)
+            cols += system.reaction_cols.get(nid, [])
+            continue
+        rigid_here = m.kind == "beam" and "moment" not in rel and not scheme.nodes[nid].hinge
+        if it is not None and rigid_here:
+            if not any(x.kind == "beam" and "moment" not in x.releases_at(nid) for x in others):
+                rows_dropped += 1
+                cols += [c for c in system.reaction_cols.get(nid, []) if system.cols[c][2] == "rotation"]
+    return rows_dropped, cols, tuple(detached)
+
+
+def _new_mode(before: Classification, after: Classification) -> Mode | None:
+    """A mechanism of ``after`` that ``before`` did not have (compared on node translations)."""
+    if not after.modes:
+        return None
+    if before.mechanisms == 0 or not before.modes:
+        return after.modes[0]
+    nodes = [n for n in after.modes[0].displacements if n in before.modes[0].displacements]
+
+    def vec(mode: Mode) -> np.ndarray:
+        return np.array([x for n in nodes for x in mode.displacements[n]])
+
+    Bo = np.array([vec(md) for md in before.modes]).T
+    Qo = la.orth(Bo) if Bo.size else np.zeros((2 * len(nodes), 0))
+    best, score = None, -1.0
+    for md in after.modes:
+        v = vec(md)
+        nv = float(np.linalg.norm(v))
+        if nv == 0:
+            continue
+        res = float(np.linalg.norm(v - Qo @ (Qo.T @ v))) / nv
+        if res > score:
+            best, score = md, res
+    return best
+
+
+def removal_checks(scheme: Scheme, red: Redundancy | None = None, *, classification: Classification | None = None,
+                   confirm: str | bool = "auto", confirm_limit: int = CONFIRM_LIMIT) -> Criticality:
+    """Remove each member and each support restraint in turn and say whether a mechanism appears.
+
+    The count after removal comes from the rank update in the module docstring; with
+    ``confirm`` True (or "auto" and at most ``confirm_limit`` items) every removal is also
+    re-analysed with :func:`classify`, whose verdict is the one kept, and the mechanism the
+    removal creates is taken from it.
+    """
+    c = classification if classification is not None else classify(scheme)
+    if red is None:
+        red = redundancy(scheme, c)
+    system = red.system
+    Qs = red.orthonormal
+    s = red.self_stress
+    rows, ncols = system.shape
+    m0 = c.mechanisms
+    n_items = len(system.member_cols) + sum(len(v) for v in system.reaction_cols.values())
+    do_confirm = confirm is True or (confirm == "auto" and n_items <= confirm_limit)
+
+    def finish(kind, item, value, carries, dropped_rows, dropped_cols, edited, what, detached=()):
+        rank_new = (ncols - len(dropped_cols)) - s + _rank_rows(Qs, dropped_cols)
+        m_new = rows - dropped_rows - rank_new
+        s_new = (ncols - len(dropped_cols)) - rank_new
+        mode = None
+        how = "rank update"
+        if do_confirm:
+            after = classify(edited)
+            m_new, s_new, how = after.mechanisms, after.self_stress, "classify"
+            if m_new > m0:
+                mode = _new_mode(c, after)
+        states = f"{s_new} state{'s' if s_new != 1 else ''} of self-stress"
+        if m_new > m0:
+            status = "critical"
+            extra = m_new - m0
+            desc = (f"removing {what} leaves {'a mechanism' if extra == 1 else f'{extra} mechanisms'}"
+                    if m0 == 0 else f"removing {what} adds {extra} mechanism{'s' if extra != 1 else ''}")
+        elif carries:
+            status = "removable"
+            desc = (f"{what} can be removed: the scheme stays stable with {states}" if m_new == 0 else
+                    f"{what} can be removed without adding a mechanism ({states} left)")
+        else:
+            status = "non-redundant"
+            desc = (f"{what} carries no self-stress; removing it takes node{'s' if len(detached) != 1 else ''} "
+                    f"{', '.join(detached)} away with it" if detached else
+                    f"{what} carries no self-stress, yet removing it adds no mechanism")
+        return RemovalCheck(kind, item, status, value, m0, m_new, s_new, how, edited, desc, tuple(detached), mode)
+
+    at: dict[str, list[Member]] = {}
+    for mem in scheme.members.values():
+        at.setdefault(mem.start, []).append(mem)
+        at.setdefault(mem.end, []).append(mem)
+    members = {}
+    for mid in system.member_cols:
+        dr, dc, detached = _member_removal_effect(scheme, system, mid, at)
+        value = red.members.get(mid, 0.0)
+        members[mid] = finish("member", mid, value, value > ZERO_VALUE, dr, dc, scheme.without_members([mid]),
+                              f"member {mid}", detached)
+    restraints = {}
+    for nid, cols in system.reaction_cols.items():
+        for cc in cols:
+            word = system.cols[cc][2]
+            key = f"{nid}:{word}"
+            # a rigid restraint has no flexibility, so its own value is 0 whatever it carries:
+            # it is removable when some state of self-stress passes through it
+            restraints[key] = finish("restraint", key, float(red.diagonal[cc]), _rank_rows(Qs, [cc]) > 0, 0, [cc],
+                                     without_restraint(scheme, nid, word), restraint_text(scheme, nid, word))
+    return Criticality(members, restraints)
