@@ -74,7 +74,7 @@ ZERO_VALUE = 1e-8
 MAX_MEMBERS = 3000
 MAX_DENSE_ENTRIES = 12_000_000
 #: re-analyse every removal with classify() when members + restraints are at most this
-CONFIRM_LIMIT = 400
+CONFIRM_LIMIT = 150
 
 FORCE_NAMES = ("N", "Mi", "Mj")
 MODE_NAMES = ("axial", "single_curvature", "double_curvature")
@@ -807,3 +807,42 @@ def removal_checks(scheme: Scheme, red: Redundancy | None = None, *, classificat
             restraints[key] = finish("restraint", key, float(red.diagonal[cc]), _rank_rows(Qs, [cc]) > 0, 0, [cc],
                                      without_restraint(scheme, nid, word), restraint_text(scheme, nid, word))
     return Criticality(members, restraints)
+
+
+# --------------------------------------------------------------------------- check --json
+#: at most this many states are written into the check JSON
+MAX_STATES_JSON = 100
+
+
+def too_big(system: System) -> str | None:
+    """Why the dense redundancy route is not attempted for this system (None when it is)."""
+    n_members = len(system.member_cols)
+    rows, cols = system.shape
+    if n_members > MAX_MEMBERS:
+        return f"{n_members} members (more than {MAX_MEMBERS})"
+    if rows * cols > MAX_DENSE_ENTRIES:
+        return f"equilibrium matrix {rows} x {cols} (more than {MAX_DENSE_ENTRIES:,} entries)"
+    return None
+
+
+def redundancy_report(scheme: Scheme, classification: Classification | None = None,
+                      confirm_limit: int = CONFIRM_LIMIT) -> dict:
+    """The keys ``redundancy``, ``critical``, ``critical_supports`` (and details) of ``check --json``."""
+    c = classification if classification is not None else classify(scheme)
+    why = too_big(c.system)
+    if why is not None:
+        return {"redundancy": None, "critical": None, "critical_supports": None,
+                "redundancy_note": f"redundancy and critical items skipped: {why}"}
+    red = redundancy(scheme, c)
+    crit = removal_checks(scheme, red, classification=c, confirm_limit=confirm_limit)
+    out = {
+        "redundancy": red.to_json(),
+        "critical": crit.critical_members(),
+        "critical_supports": crit.critical_restraints(),
+        "removal": {"members": {k: v.to_json() for k, v in crit.members.items()},
+                    "restraints": {k: v.to_json() for k, v in crit.restraints.items()}},
+        "self_stress_states": [st.to_json() for st in red.states[:MAX_STATES_JSON]],
+    }
+    if len(red.states) > MAX_STATES_JSON:
+        out["redundancy_note"] = f"first {MAX_STATES_JSON} of {len(red.states)} states of self-stress listed"
+    return out

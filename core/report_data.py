@@ -17,5 +17,8 @@ def check_json(scheme: Scheme, extras: bool = True, result: Classification | Non
     c = result if result is not None else classify(scheme)
     out = c.to_json()
     if extras:
-        pass
+        # redundancy distribution, critical members and restraints, states of self-stress
+        from .redundancy import redundancy_report
+
+        out.update(redundancy_report(scheme, c))
     return out
