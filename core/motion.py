@@ -95,7 +95,7 @@ class Path:
             "frames": [{"nodes": {k: [_clean(x, scale), _clean(y, scale)] for k, (x, y) in f.items()}}
                        for f in self.frames],
             "start_frame": self.start,
-            "bodies": [_piece_json(p) for p in self.bodies],
+            "bodies": [_piece_json(p, scale) for p in self.bodies],
             "fixed_members": list(self.fixed_members),
             "ended": dict(self.ended),
             "driver": self.driver,
@@ -109,13 +109,14 @@ class Path:
 
 
 def _clean(v: float, scale: float) -> float:
-    return 0.0 if abs(v) <= 1e-13 * max(scale, 1.0) else float(v)
+    """Rounding noise around zero (below 1e-12 of the drawing's extent) printed as 0."""
+    return 0.0 if abs(v) <= 1e-12 * max(scale, 1.0) else float(v)
 
 
-def _piece_json(p: Piece) -> dict:
+def _piece_json(p: Piece, scale: float) -> dict:
     d = p.to_json()
     if d["centre"] is not None:
-        d["centre"] = [float(d["centre"][0]), float(d["centre"][1])]
+        d["centre"] = [_clean(d["centre"][0], scale), _clean(d["centre"][1], scale)]
     else:
         d["direction"] = [_clean(d["direction"][0], 1.0), _clean(d["direction"][1], 1.0)]
     return d
