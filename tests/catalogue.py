@@ -275,3 +275,21 @@ def random_scheme(rng: _random.Random, family: str | None = None) -> Scheme:
             fix = [w for w in _FIX_WORDS if rng.random() < 0.5] if kind == "custom" else []
             supports.append((nid, kind, ang, fix))
     return build(xy, members, supports, hinges=hinges, title=f"random {family}")
+
+
+def rich_scheme() -> Scheme:
+    """A scheme using every field of the file format (hinge, all release words, rise, stiffness,
+    every support kind with angles, custom fix, the optional top-level blocks)."""
+    nodes = {"A": Node("A", 0.0, 0.0), "B": Node("B", 3.25, 4.5, True), "C": Node("C", -7.125, 1e-3),
+             "D": Node("D", 2.0, -1.0)}
+    members = {
+        "c1": Member("c1", "A", "B", "beam", frozenset({"moment", "shear"}), frozenset({"axial"}), 0.75, 2.5, 0.01),
+        "b1": Member("b1", "B", "C", "bar"),
+        "c2": Member("c2", "C", "A", "beam", rise=-1.5),
+        "c3": Member("c3", "A", "D", "beam"),
+    }
+    supports = {"A": Support("A", "fixed", 90.0), "C": Support("C", "custom", 33.3, ("across", "rotation")),
+                "B": Support("B", "roller", -15.0), "D": Support("D", "guided", 0.0)}
+    extra = {"notes": "a scheme with every feature", "expected": {"verdict": "unstable"},
+             "source": "test", "underlay": {"image": "sketches/plan.png", "scale": 0.01, "origin": [-2.0, 9.5]}}
+    return Scheme(nodes, members, supports, "round trip", "mm", extra)

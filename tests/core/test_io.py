@@ -16,10 +16,9 @@ from pathlib import Path
 
 import pytest
 
-from catalogue import build
+from catalogue import build, rich_scheme
 from kinestat.core import io as kio
 from kinestat.core.io import SchemeError, load, loads, save
-from kinestat.core.model import Member, Node, Scheme, Support
 
 
 def good() -> dict:
@@ -184,20 +183,6 @@ def test_older_files_keep_loading_and_version_is_kept():
 
 
 # ---------------------------------------------------------------- round trip and atomic save
-def rich_scheme() -> Scheme:
-    nodes = {"A": Node("A", 0.0, 0.0), "B": Node("B", 3.25, 4.5, True), "C": Node("C", -7.125, 1e-3)}
-    members = {
-        "c1": Member("c1", "A", "B", "beam", frozenset({"moment", "shear"}), frozenset({"axial"}), 0.75, 2.5, 0.01),
-        "b1": Member("b1", "B", "C", "bar"),
-        "c2": Member("c2", "C", "A", "beam", rise=-1.5),
-    }
-    supports = {"A": Support("A", "fixed", 90.0), "C": Support("C", "custom", 33.3, ("across", "rotation")),
-                "B": Support("B", "roller", -15.0)}
-    extra = {"notes": "a scheme with every feature", "expected": {"verdict": "unstable"},
-             "source": "test", "underlay": {"image": "sketches/plan.png", "scale": 0.01, "origin": [-2.0, 9.5]}}
-    return Scheme(nodes, members, supports, "round trip", "mm", extra)
-
-
 def test_round_trip(tmp_path):
     s = rich_scheme()
     p = tmp_path / "s.json"
