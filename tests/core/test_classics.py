@@ -390,3 +390,36 @@ def test_double_parallelogram_moves_although_gruebler_says_zero():
     assert r.mechanisms - r.self_stress == 0    # the count sees M = 0
     r2 = classify(skew)
     assert (r2.mechanisms, r2.self_stress) == (0, 0)
+
+
+# Every classic where the count is >= 0 but m > 0 gets an explanation naming the cause a checker
+# knows (Calladine 1978: the count only gives s - m):
+CAUSES = {
+    "T5": ("collinear",),                    # Pellegrino & Calladine 1986
+    "T7": ("parallel",),                     # common practice
+    "T8": ("concurrent",),                   # common practice
+    "T11": ("collinear",),                   # Pellegrino & Calladine 1986
+    "T13": ("unbraced", "braced"),           # Calladine 1978
+    "F8": ("parallel",),                     # common practice
+    "F9": ("rigid-body", "supports"),        # Pellegrino & Calladine 1986: nothing holds the ring
+    "F12": ("collinear", "in line"),         # common practice: three hinges in a line
+}
+
+
+def test_causes_cover_every_misleading_classic():
+    misleading = set()
+    for name in CLASSICS:
+        r = classify(classic(name))
+        if r.count.value >= 0 and r.mechanisms > 0:
+            misleading.add(name)
+    assert misleading == set(CAUSES)
+
+
+@pytest.mark.parametrize("name", sorted(CAUSES))
+def test_explanation_names_the_cause(name):
+    r = classify(classic(name))
+    assert r.explanations, "a count >= 0 with m > 0 must be explained"
+    text = " ".join(r.explanations).lower()
+    assert any(word in text for word in CAUSES[name]), text
+    # and the hand count's own number is quoted, so the checker sees why it misleads
+    assert str(r.count.value) in r.explanations[0]
