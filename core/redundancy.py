@@ -105,12 +105,19 @@ def support_with_fixes(node: str, angle: float, fixes) -> Support | None:
     return Support(node, "custom", angle, tuple(w for w in FIX_WORDS if w in f))
 
 
-def without_restraint(scheme: Scheme, node: str, word: str) -> Scheme:
-    """``scheme`` with one restraint (``along``, ``across`` or ``rotation``) of a support removed."""
+def without_restraint(scheme: Scheme, node: str, word) -> Scheme:
+    """``scheme`` with restraints of the support at ``node`` removed.
+
+    ``word`` is one of ``along``, ``across``, ``rotation`` (in the support's own frame) or a
+    collection of them; remove several of one support in one call, because the words of a
+    support turned by the edit (a pin losing ``along`` becomes a roller) refer to its new frame.
+    """
+    words = {word} if isinstance(word, str) else set(word)
     sup = scheme.supports[node]
-    if word not in sup.fixes:
-        raise KeyError(f'support at node "{node}" has no "{word}" restraint')
-    new = support_with_fixes(node, sup.angle, set(sup.fixes) - {word})
+    missing = words - set(sup.fixes)
+    if missing:
+        raise KeyError(f'support at node "{node}" has no "{sorted(missing)[0]}" restraint')
+    new = support_with_fixes(node, sup.angle, set(sup.fixes) - words)
     return scheme.without_support(node) if new is None else scheme.with_support(new)
 
 
