@@ -43,9 +43,8 @@ _FIELD = QQ.algebraic_field(sp.sqrt(2), sp.sqrt(3))
 
 def _exact_dir(angle_deg: float) -> tuple[sp.Expr, sp.Expr]:
     """Exact (cos, sin) of a support angle, up to a positive factor."""
-    q = Fraction(angle_deg).limit_denominator(1000)
-    if abs(float(q) - angle_deg) < 1e-12 and (q * 4) % 15 == 0 or abs(float(q) - angle_deg) < 1e-12 and q % 15 == 0:
-        r = sp.pi * sp.Rational(q.numerator, q.denominator) / 180
+    if float(angle_deg).is_integer() and int(angle_deg) % 15 == 0:
+        r = sp.pi * sp.Integer(int(angle_deg)) / 180          # exact: rationals and sqrt(2), sqrt(3)
         return sp.nsimplify(sp.cos(r)), sp.nsimplify(sp.sin(r))
     # a direction along a small integer vector (3-4-5 triangles, lines through two grid points)
     for p in range(-12, 13):

@@ -91,6 +91,8 @@ def test_example_matches_its_expected_block(path):
     count = hand_count(doc)
     assert count == exp["self_stress"] - exp["mechanisms"]
     assert r.count.value == count
+    if count >= 0 and r.mechanisms > 0:          # the count misleads: the cause must be explained
+        assert r.explanations
 
 
 @pytest.mark.parametrize("path", PATHS, ids=IDS)
