@@ -239,6 +239,70 @@ class ClashCheck:
     def new_pairs(self, q: np.ndarray) -> list[tuple[str, str]]:
         return [(self.ids[a], self.ids[b]) for a, b in sorted(self.touching(q) - self.initial)]
 
+    def crossed(self, q0: np.ndarray, q1: np.ndarray) -> bool:
+        """Whether an end of one member sweeps through another between two positions.
+
+        Positions are interpolated linearly over the step; with ``u`` a member's chord and
+        ``w`` the vector from its start to the other member's end, ``u x w`` is a quadratic
+        in the step fraction, and a root with the end inside the chord is a crossing.
+        Catches members that pass through each other within one step.
+        """
+        import shapely
+
+        e0, e1 = self.model.member_ends(q0), self.model.member_ends(q1)
+        A0 = np.array([e0[m][0] for m in self.ids]); B0 = np.array([e0[m][1] for m in self.ids])
+        A1 = np.array([e1[m][0] for m in self.ids]); B1 = np.array([e1[m][1] for m in self.ids])
+        lo = np.minimum.reduce([A0, B0, A1, B1]); hi = np.maximum.reduce([A0, B0, A1, B1])
+        boxes = shapely.box(lo[:, 0], lo[:, 1], hi[:, 0], hi[:, 1])
+        left, right = shapely.STRtree(boxes).query(boxes, predicate="intersects")
+        keep = [(a, b) for a, b in zip(left.tolist(), right.tolist())
+                if a < b and (a, b) not in self.joined and (a, b) not in self.initial]
+        if not keep:
+            return False
+        I = np.array([k[0] for k in keep]); J = np.array([k[1] for k in keep])
+        for seg, pts in ((I, J), (J, I)):
+            a0, a1 = A0[seg], A1[seg]
+            u0, du = B0[seg] - a0, (B1[seg] - a1) - (B0[seg] - a0)
+            for P0, P1 in ((A0[pts], A1[pts]), (B0[pts], B1[pts])):
+                w0 = P0 - a0
+                dw = (P1 - a1) - w0
+                c0 = _cross(u0, w0)
+                c1 = _cross(u0, dw) + _cross(du, w0)
+                c2 = _cross(du, dw)
+                for tau in _roots01(c0, c1, c2):
+                    ok = np.isfinite(tau)
+                    if not ok.any():
+                        continue
+                    t = np.where(ok, tau, 0.0)[:, None]
+                    u = u0 + t * du
+                    w = w0 + t * dw
+                    sfrac = np.einsum("ij,ij->i", u, w) / np.maximum(np.einsum("ij,ij->i", u, u), 1e-300)
+                    if np.any(ok & (sfrac > 1e-9) & (sfrac < 1 - 1e-9)):
+                        return True
+        return False
+
+
+def _cross(u: np.ndarray, v: np.ndarray) -> np.ndarray:
+    return u[:, 0] * v[:, 1] - u[:, 1] * v[:, 0]
+
+
+def _roots01(c0: np.ndarray, c1: np.ndarray, c2: np.ndarray) -> list[np.ndarray]:
+    """Real roots in (0, 1] of c0 + c1 t + c2 t^2 (elementwise; nan where there is none)."""
+    nan = np.full(c0.shape, np.nan)
+    scale = np.maximum.reduce([np.abs(c0), np.abs(c1), np.abs(c2), np.full(c0.shape, 1e-300)])
+    quad = np.abs(c2) > 1e-12 * scale
+    disc = c1 * c1 - 4 * c2 * c0
+    sq = np.sqrt(np.where(quad & (disc >= 0), disc, 0.0))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r1 = np.where(quad & (disc >= 0), (-c1 - sq) / (2 * c2), nan)
+        r2 = np.where(quad & (disc >= 0), (-c1 + sq) / (2 * c2), nan)
+        lin = ~quad & (np.abs(c1) > 1e-12 * scale)
+        r3 = np.where(lin, -c0 / np.where(lin, c1, 1.0), nan)
+    out = []
+    for r in (r1, r2, r3):
+        out.append(np.where((r > 0) & (r <= 1), r, nan))
+    return out
+
 
 # ---------------------------------------------------------------------- the tracer
 class Tracer:
@@ -305,6 +369,7 @@ class Tracer:
         h = h0
         det_prev = self._det_sign(q, t)
         far = False
+        longest = 0.0
         cos_max = math.cos(MAX_TURN)
         out: list[np.ndarray] = []
         for step in range(self.max_steps):
@@ -330,7 +395,7 @@ class Tracer:
                 self.max_residual = max(self.max_residual, model.residual(y_t))
                 return out, "dead centre"
             # members passing through each other
-            if self.clash is not None and self.clash.new_pairs(y):
+            if self.clash is not None and (self.clash.new_pairs(y) or self.clash.crossed(q, y)):
                 y_c = self._locate_clash(q, t, h)
                 if y_c is not None:
                     out.append(y_c)
@@ -348,7 +413,8 @@ class Tracer:
             Xy = model.attachment_positions(y)
             dist = float(np.max(np.linalg.norm(Xy - self.X0, axis=1)))
             step_len = float(np.max(np.linalg.norm(Xy - Xq, axis=1)))
-            if not far and dist > 4 * self.disp:
+            longest = max(longest, step_len)
+            if not far and dist > 4 * longest:
                 far = True
             if far:
                 seg = (Xy - Xq).ravel()
@@ -393,7 +459,7 @@ class Tracer:
         for _ in range(40):
             mid = 0.5 * (lo + hi)
             y, ok, _ = self._step(q, t, mid)
-            if ok and not self.clash.new_pairs(y):
+            if ok and not self.clash.new_pairs(y) and not self.clash.crossed(q, y):
                 lo, best = mid, y
             else:
                 hi = mid
