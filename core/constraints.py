@@ -196,6 +196,10 @@ class ConstraintModel:
                 self.member_att[m.id] = (self.node_att[m.start], self.node_att[m.end])
             else:
                 self.member_att[m.id] = (attach(k, m.start), attach(k, m.end))
+        #: member ids in scheme order, with the attachment of each end (arrays for vector work)
+        self.member_ids = list(scheme.members)
+        self.member_a = np.array([self.member_att[mid][0] for mid in self.member_ids], int)
+        self.member_b = np.array([self.member_att[mid][1] for mid in self.member_ids], int)
         self._att_ent = np.array(att_ent, int)
         self._att_off = np.array([self.entities[k].offset for k in att_ent], int)
         self._att_body = np.array([self.entities[k].kind == "body" for k in att_ent], bool)

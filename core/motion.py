@@ -136,14 +136,16 @@ def tangent(model: ConstraintModel, y: np.ndarray, t_prev: np.ndarray) -> tuple[
 
 def member_rates(model: ConstraintModel, q: np.ndarray, t: np.ndarray) -> dict[str, float]:
     """Angular rate of every member's chord along ``t`` (radians per unit of ``t``)."""
+    return dict(zip(model.member_ids, member_rate_array(model, q, t).tolist()))
+
+
+def member_rate_array(model: ConstraintModel, q: np.ndarray, t: np.ndarray) -> np.ndarray:
+    """:func:`member_rates` as an array in scheme member order."""
     P = model.attachment_positions(q)
     dP = model.attachment_velocities(q, t)
-    out = {}
-    for mid, (a, b) in model.member_att.items():
-        g = P[b] - P[a]
-        dg = dP[b] - dP[a]
-        out[mid] = float((g[0] * dg[1] - g[1] * dg[0]) / (g @ g))
-    return out
+    g = P[model.member_b] - P[model.member_a]
+    dg = dP[model.member_b] - dP[model.member_a]
+    return (g[:, 0] * dg[:, 1] - g[:, 1] * dg[:, 0]) / np.einsum("ij,ij->i", g, g)
 
 
 def fixed_points(scheme: Scheme) -> set[str]:
@@ -199,7 +201,7 @@ class ClashCheck:
     def __init__(self, model: ConstraintModel):
         self.model = model
         sch = model.scheme
-        self.ids = list(sch.members)
+        self.ids = model.member_ids
         self.curved = {mid for mid in self.ids if sch.members[mid].rise}
         at: dict[str, list[int]] = {}
         for k, mid in enumerate(self.ids):
@@ -215,16 +217,15 @@ class ClashCheck:
     def geometries(self, q: np.ndarray):
         import shapely
 
-        ends = self.model.member_ends(q)
-        lines = []
-        for mid in self.ids:
-            a, b = ends[mid]
+        m = self.model
+        P = m.attachment_positions(q) * m.lref
+        A, B = P[m.member_a], P[m.member_b]
+        lines = shapely.linestrings(np.stack([A, B], axis=1))
+        for k, mid in enumerate(self.ids):
             if mid in self.curved:
-                rise = self.model.scheme.members[mid].rise
-                lines.append(shapely.LineString(arc_points(tuple(a), tuple(b), rise, 16)))
-            else:
-                lines.append(shapely.LineString([a, b]))
-        return lines
+                rise = m.scheme.members[mid].rise
+                lines[k] = shapely.LineString(arc_points(tuple(A[k]), tuple(B[k]), rise, 16))
+        return list(lines)
 
     def touching(self, q: np.ndarray) -> set[tuple[int, int]]:
         import shapely
@@ -249,9 +250,10 @@ class ClashCheck:
         """
         import shapely
 
-        e0, e1 = self.model.member_ends(q0), self.model.member_ends(q1)
-        A0 = np.array([e0[m][0] for m in self.ids]); B0 = np.array([e0[m][1] for m in self.ids])
-        A1 = np.array([e1[m][0] for m in self.ids]); B1 = np.array([e1[m][1] for m in self.ids])
+        m = self.model
+        P0, P1 = m.attachment_positions(q0) * m.lref, m.attachment_positions(q1) * m.lref
+        A0, B0 = P0[m.member_a], P0[m.member_b]
+        A1, B1 = P1[m.member_a], P1[m.member_b]
         lo = np.minimum.reduce([A0, B0, A1, B1]); hi = np.maximum.reduce([A0, B0, A1, B1])
         boxes = shapely.box(lo[:, 0], lo[:, 1], hi[:, 0], hi[:, 1])
         left, right = shapely.STRtree(boxes).query(boxes, predicate="intersects")
@@ -333,8 +335,8 @@ class Tracer:
     def cap(self, q: np.ndarray, t: np.ndarray) -> float:
         dP = self.model.attachment_velocities(q, t)
         vmax = float(np.max(np.linalg.norm(dP, axis=1))) if dP.size else 0.0
-        rates = member_rates(self.model, q, t)
-        wmax = max((abs(r) for r in rates.values()), default=0.0)
+        rates = member_rate_array(self.model, q, t)
+        wmax = float(np.abs(rates).max()) if rates.size else 0.0
         h = math.inf
         if vmax > 0:
             h = self.disp / vmax
