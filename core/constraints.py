@@ -447,7 +447,10 @@ class ConstraintModel:
     # ------------------------------------------------------------------ geometry
     def node_positions(self, q: np.ndarray) -> dict[str, tuple[float, float]]:
         """Physical coordinates of every node of the scheme (nodes no member reaches stay put)."""
-        P = self.attachment_positions(q) * self.lref
+        return self.nodes_from_points(self.attachment_positions(q) * self.lref)
+
+    def nodes_from_points(self, P: np.ndarray) -> dict[str, tuple[float, float]]:
+        """Node coordinates from physical attachment positions ``P`` (n_att x 2)."""
         out = {}
         for nid, n in self.scheme.nodes.items():
             if nid in self.node_att:

@@ -540,17 +540,9 @@ def _linearised(model, d, steps, pieces, still, mode_no, modes, verdict, t_start
     vmax = float(np.max(np.linalg.norm(v, axis=1))) or 1.0
     amp = LINEAR_AMPLITUDE * model.size / vmax
     k = max(2, min(int(steps), 40) // 2)
-    frames = []
+    frames: list[dict[str, tuple[float, float]]] = []
     for a in np.linspace(-amp, amp, 2 * k + 1):
-        P = P0 + a * v
-        f = {}
-        for nid, n in model.scheme.nodes.items():
-            if nid in model.node_att:
-                x, y = P[model.node_att[nid]]
-                f[nid] = (float(x), float(y))
-            else:
-                f[nid] = (n.x, n.y)
-        frames.append(f)
+        frames.append(model.nodes_from_points(P0 + a * v))
     note = ("infinitesimal mechanism: shown linearised; the amplitude has no physical meaning (the scheme "
             "locks at second order or higher)")
     return Path("infinitesimal", True, frames, k, {"forward": "limit", "backward": "limit"}, pieces, still,
