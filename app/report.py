@@ -69,7 +69,42 @@ WHITE = "#ffffff"
 #: mechanism positions: panels per row and panel height
 STRIP_COLUMNS = 3
 STRIP_PANEL_H = 165.0
-BODY_COLOURS = ("#0072b2", "#009e73", "#cc79a7", "#e69f00", "#56b4e9", "#f0e442", "#000000")
+#: the strip shows a direction of motion until a node has travelled this many scheme sizes
+STRIP_TRAVEL = 0.6
+BODY_COLOURS = ("#0072b2", "#009e73", "#cc79a7", "#e69f00", "#56b4e9", "#000000", "#8a6d3b")
+
+
+# ---------------------------------------------------------------------- interpreter guard
+def shield_none_refcount(margin: int = 1 << 40) -> bool:
+    """Keep ``None`` alive under a Qt binding that returns it without taking a reference.
+
+    With PySide6/shiboken6 6.12 on CPython 3.11 every call of a method that returns nothing
+    (``QPainter.drawLine``, ``setPen``...) drops one reference to ``None``; a report makes
+    thousands of such calls and once the count reaches zero the interpreter aborts
+    ("none_dealloc").  CPython 3.12 and later make ``None`` immortal (PEP 683), so there is
+    nothing to do there.  When a probe shows the leak, ``margin`` references are added to
+    ``None`` once (its count lives in the first word of the object in a CPython release
+    build; checked against ``sys.getrefcount`` before writing).  Returns True when it did so.
+    """
+    import sys
+
+    if sys.implementation.name != "cpython" or sys.version_info >= (3, 12):
+        return False
+    import ctypes
+
+    cell = ctypes.c_ssize_t.from_address(id(None))
+    if cell.value >= margin // 2:
+        return False  # already shielded
+    probe = QPointF()
+    before = sys.getrefcount(None)
+    for _ in range(16):
+        probe.setX(0.0)
+    if before - sys.getrefcount(None) < 16:
+        return False  # the binding keeps its references: no leak
+    if abs(cell.value - (sys.getrefcount(None) - 1)) > 4:
+        return False  # not the expected object layout: leave the interpreter alone
+    cell.value += margin
+    return True
 
 
 # ---------------------------------------------------------------------- content hash
@@ -533,24 +568,30 @@ class Report:
         tb_h = self._title_block_height()
         flow = Flow(self.sheet, self.sheet.border + self.sheet.pad + tb_h + 10)
         self.flow = flow
+        self.section = 0
         self._verdict_section()
         self._drawing_section()
         self._count_section()
         self._warnings_section()
         if f.classification.verdict == "unstable":
             self._motion_section()
+        if f.check.get("redundancy") is not None or f.check.get("redundancy_note"):
+            self._redundancy_section()
+        if f.check.get("critical") is not None:
+            self._critical_section()
         self._tables_section()
         return flow.finish()
 
     def _h(self, text: str) -> None:
-        self.flow.add(Heading(self.st, text))
+        self.section += 1
+        self.flow.add(Heading(self.st, f"{self.section}  {text}"))
 
     def _p(self, text: str, font=None, colour=INK, indent=0.0, marker=None, gap=4.0, keep=False) -> None:
         self.flow.add(Text(self.st, text, self.cw, font, colour, indent, gap, marker, keep))
 
     def _verdict_section(self):
         ck, st = self.f.check, self.st
-        self._h("1  Verdict")
+        self._h("Verdict")
         colour = verdict_colour(ck["verdict"])
         vh = st.metrics(st.verdict).height() + 6
 
@@ -564,9 +605,14 @@ class Report:
         self.flow.add(Figure(vh, banner, gap=4))
         self._p(verdict_words(ck))
         inner, sup = ck["internal"], ck["supports"]
+        if sup["mechanisms"] < 0:
+            at_sup = (f"the supports also stop {-sup['mechanisms']} of those mechanism(s) and add "
+                      f"s = {sup['self_stress']}")
+        else:
+            at_sup = f"at the supports: m = {sup['mechanisms']}, s = {sup['self_stress']}"
         self._p(f"Rank result: m = {ck['mechanisms']} mechanism(s), s = {ck['self_stress']} state(s) of "
-                f"self-stress. Inside the structure: m = {inner['mechanisms']}, s = {inner['self_stress']}; "
-                f"at the supports: m = {sup['mechanisms']}, s = {sup['self_stress']}.")
+                f"self-stress. Inside the structure (without its supports, rigid-body motions aside): "
+                f"m = {inner['mechanisms']}, s = {inner['self_stress']}; {at_sup}.")
         motion = ck.get("motion")
         if motion and motion != "none":
             self._p(f"Motion: {motion}" + (" (the mechanism moves through finite positions)." if motion == "finite"
@@ -578,7 +624,7 @@ class Report:
 
     def _drawing_section(self):
         f, st = self.f, self.st
-        self._h("2  Drawing")
+        self._h("Drawing")
         x0, y0, x1, y1 = scheme_bounds(f.scheme)
         aspect = (y1 - y0 + 1e-9) / (x1 - x0 + 1e-9)
         h = min(max(self.cw * aspect + 80, 240.0), 470.0)
@@ -603,7 +649,7 @@ class Report:
         ck, st, cw = self.f.check, self.st, self.cw
         cnt = ck["count"]
         t = cnt["terms"]
-        self._h("3  Hand count and rank result")
+        self._h("Hand count and rank result")
         if cnt["form"] == "truss":
             rule = "Maxwell's rule for a pin-jointed truss, D = m + r - 2j"
             terms = [("j", "joints", t["joints"]), ("m", "members (bars)", t["members"]),
@@ -667,7 +713,7 @@ class Report:
 
     def _warnings_section(self):
         ck, st = self.f.check, self.st
-        self._h("4  Warnings and notes")
+        self._h("Warnings and notes")
         ws = ck.get("warnings") or []
         items = ck.get("warning_items") or [[] for _ in ws]
         if not ws:
@@ -681,7 +727,7 @@ class Report:
     # ------------------------------------------------------------------ motion
     def _motion_section(self):
         f, st, cw = self.f, self.st, self.cw
-        self._h("5  Mechanism positions, bodies and instant centres")
+        self._h("Mechanism positions, bodies and instant centres")
         if not f.motion:
             self._p("No mechanism shape is available. " + f.motion_note)
             return
@@ -693,7 +739,7 @@ class Report:
             self._p(f"Mode {v.index} ({v.kind}): {v.motion} motion" +
                     (f"; driver {v.driver}" if v.driver else "") +
                     (f"; ends: forward {v.ended.get('forward')}, backward {v.ended.get('backward')}"
-                     if v.ended else "") + ".", st.bold, keep=True)
+                     if v.ended and v.motion == "finite" else "") + ".", st.bold, keep=True)
             if v.note:
                 self._p(v.note, st.small, MUTED, keep=True)
             self.flow.add(Figure(300, lambda p, r, v=v: self._paint_bodies(p, r, v), gap=4))
@@ -799,22 +845,29 @@ class Report:
         picks = self._pick_frames(v)
         gap = 8.0
         w = (r.width() - gap * (STRIP_COLUMNS - 1)) / STRIP_COLUMNS
-        bounds = self._frame_bounds([v.frames[i] for i, _ in picks])
+        if v.ended.get("forward") == "full cycle":
+            shown = v.frames
+        else:
+            shown = v.frames[min(i for i, _ in picks):max(i for i, _ in picks) + 1]
+        bounds = self._frame_bounds(shown)
         T = None
         for j, (i, label) in enumerate(picks):
             row, col = divmod(j, STRIP_COLUMNS)
             pr = QRectF(r.left() + col * (w + gap), r.top() + row * (STRIP_PANEL_H + gap), w, STRIP_PANEL_H)
+            p.save()
+            p.setClipRect(pr)
             p.fillRect(pr, QColor(PALETTE.paper))
             if T is None:
                 T = ModelTransform.fit(bounds, pr.adjusted(0, 0, 0, -16), margin=24.0)
             Tj = ModelTransform(T.scale, T.ox + (pr.left() - r.left()), T.oy + (pr.top() - r.top()))
             p.setPen(pen(PALETTE.mechanism, 0.7, Qt.DotLine))
             for nid in s.nodes:
-                pts = QPolygonF([Tj.map(*fr[nid]) for fr in v.frames if nid in fr])
+                pts = QPolygonF([Tj.map(*fr[nid]) for fr in shown if nid in fr])
                 if pts.size() > 1:
                     p.drawPolyline(pts)
             paint_scheme(p, s, None, pr, positions=v.frames[i], transform=Tj, caption=False, caution=False,
                          show_mode=False, background=False, crossings=False)
+            p.restore()
             p.setPen(pen(RULE, 0.8))
             p.setBrush(Qt.NoBrush)
             p.drawRect(pr.adjusted(0.4, 0.4, -0.4, -0.4))
@@ -823,8 +876,10 @@ class Report:
             p.drawText(QRectF(pr.left() + 4, pr.bottom() - 15, pr.width() - 8, 13),
                        int(Qt.AlignHCenter | Qt.AlignVCenter), label)
 
-    @staticmethod
-    def _pick_frames(v: MotionView) -> list[tuple[int, str]]:
+    def _pick_frames(self, v: MotionView) -> list[tuple[int, str]]:
+        """Frames for the strip: ends and midpoints of each direction, the drawn position between;
+        a direction is cut where a node has travelled STRIP_TRAVEL model sizes (an open slide or
+        a long swing would otherwise shrink the drawing to nothing)."""
         n = len(v.frames)
         if n <= 1:
             return [(0, "drawn position")]
@@ -833,16 +888,30 @@ class Report:
             return [(i, "drawn position" if i == 0 else f"{round(100 * i / (n - 1))} % of the cycle") for i in idx]
         if v.motion in ("infinitesimal", "first order"):
             return [(0, "minus (linearised)"), (v.start, "drawn position"), (n - 1, "plus (linearised)")]
+        limit = STRIP_TRAVEL * self.f.scheme.size()
+        ref = v.frames[v.start]
+
+        def travel(i):
+            fr = v.frames[i]
+            return max((math.hypot(fr[k][0] - x, fr[k][1] - y) for k, (x, y) in ref.items() if k in fr), default=0.0)
+
+        lo = v.start
+        while lo > 0 and travel(lo - 1) <= limit:
+            lo -= 1
+        hi = v.start
+        while hi < n - 1 and travel(hi + 1) <= limit:
+            hi += 1
+        cut = f"cut at {STRIP_TRAVEL:g} × the scheme size"
         out = []
-        if v.start > 0:
-            out.append((0, f"backward end: {v.ended.get('backward', '')}"))
-            if v.start > 3:
-                out.append((v.start // 2, "backward"))
+        if lo < v.start:
+            out.append((lo, f"backward end: {v.ended.get('backward', '')}" if lo == 0 else f"backward, {cut}"))
+            if v.start - lo > 3:
+                out.append(((lo + v.start) // 2, "backward"))
         out.append((v.start, "drawn position"))
-        if v.start < n - 1:
-            if n - 1 - v.start > 3:
-                out.append(((v.start + n - 1) // 2, "forward"))
-            out.append((n - 1, f"forward end: {v.ended.get('forward', '')}"))
+        if hi > v.start:
+            if hi - v.start > 3:
+                out.append(((v.start + hi) // 2, "forward"))
+            out.append((hi, f"forward end: {v.ended.get('forward', '')}" if hi == n - 1 else f"forward, {cut}"))
         return out
 
     def _tag(self, p: QPainter, at: QPointF, text: str, colour: str) -> None:
@@ -852,7 +921,10 @@ class Report:
         p.setPen(pen(colour, 0.9))
         p.setBrush(QBrush(QColor(WHITE)))
         p.drawRoundedRect(box, 2, 2)
-        p.setPen(QColor(colour))
+        ink = QColor(colour)
+        if ink.lightnessF() > 0.45:
+            ink = ink.darker(150)
+        p.setPen(ink)
         p.drawText(box, int(Qt.AlignCenter), text)
 
     @staticmethod
@@ -886,11 +958,147 @@ class Report:
         self._arrow(p, a, e, colour)
         self._tag(p, a + QPointF(-14, -6), f"{label} (off the panel)", colour)
 
+    # ------------------------------------------------------------------ redundancy
+    def _redundancy_section(self):
+        ck, st, cw = self.f.check, self.st, self.cw
+        red = ck.get("redundancy")
+        if red is None:
+            self._h("Redundancy per member")
+            self._p(ck.get("redundancy_note") or "Redundancy not computed.")
+            return
+        if not ck["self_stress"]:
+            return
+        self._h("Redundancy per member")
+        self._p("The share of the indeterminacy each member holds: the diagonal of the redundancy matrix "
+                "R = F S (Sᵀ F S)⁻¹ Sᵀ (von Scheven, Ramm & Bischoff 2021), summed over the "
+                f"member's forces; the shares add up to s = {ck['self_stress']}. 0: equilibrium alone gives "
+                "the member's forces (not redundant); 1: a fully redundant bar. A beam can "
+                "hold up to 3, split here into its axial, single-curvature and double-curvature parts. "
+                "The shares depend on the relative stiffnesses (defaults where the file gives none).",
+                st.small, MUTED)
+        if red.get("reactions"):
+            self._p(f"Reactions: {red['reactions']}.", st.small, MUTED)
+        members = red.get("members") or {}
+        modes = red.get("members_modes") or {}
+        removal = (ck.get("removal") or {}).get("members") or {}
+        top = max([1.0] + [float(v) for v in members.values()])
+        shades = {"axial": "#1d4f7a", "single_curvature": "#4f8fc0", "double_curvature": "#a9cbe6"}
+        legend_h = 16.0
+
+        def legend(p, r):
+            x = r.left()
+            p.setFont(st.small)
+            for key, words in (("axial", "axial"), ("single_curvature", "single curvature"),
+                               ("double_curvature", "double curvature")):
+                p.fillRect(QRectF(x, r.top() + 4, 14, 8), QColor(shades[key]))
+                p.setPen(QColor(INK))
+                p.drawText(QRectF(x + 18, r.top(), 140, r.height()), int(Qt.AlignLeft | Qt.AlignVCenter), words)
+                x += 130
+            p.setPen(QColor(MUTED))
+            p.drawText(QRectF(x, r.top(), r.right() - x, r.height()), int(Qt.AlignRight | Qt.AlignVCenter),
+                       f"bar length: share, full scale {_fmt(top)}")
+
+        self.flow.add(Figure(legend_h, legend, gap=2))
+
+        def bar(mid):
+            parts = modes.get(mid) or {"axial": members.get(mid, 0.0)}
+
+            def fn(p, r, parts=parts):
+                x = r.left()
+                span = r.width()
+                for key in ("axial", "single_curvature", "double_curvature"):
+                    v = max(0.0, float(parts.get(key, 0.0)))
+                    w = span * v / top
+                    if w > 0:
+                        p.fillRect(QRectF(x, r.top() + 1, w, r.height() - 2), QColor(shades[key]))
+                    x += w
+                p.setPen(pen(RULE, 0.6, Qt.DashLine))
+                x1 = r.left() + span / top
+                p.drawLine(QPointF(x1, r.top() - 2), QPointF(x1, r.bottom() + 2))
+                p.setPen(pen(INK, 0.6))
+                p.drawLine(QPointF(r.left(), r.top() - 2), QPointF(r.left(), r.bottom() + 2))
+            return Cell(fn=fn, height=9.0)
+
+        rows = []
+        for mid, m in self.f.scheme.members.items():
+            if mid not in members:
+                continue
+            status = (removal.get(mid) or {}).get("status", "")
+            rows.append([Cell(mid, st.bold), m.kind, bar(mid),
+                         Cell(f"{float(members[mid]):.3f}", st.mono, align=Qt.AlignRight), "",
+                         Cell(status, st.body, verdict_colour("unstable") if status == "critical" else INK)])
+        self.flow.add_table(Table(st, cw, [("member", 1.1), ("kind", 0.8), ("share (bar chart)", 6.0),
+                                           ("share", 1.0, Qt.AlignRight), ("", 0.3),
+                                           ("if removed", 1.5)], rows,
+                                  font=st.body), "Redundancy per member (continued)")
+        self._p(f"Sum over the members: {_fmt(float(red.get('total', 0.0)))} (= s).", st.small, MUTED)
+        states = ck.get("self_stress_states") or []
+        if states:
+            self._p("States of self-stress (local form: each is a smallest set of forces in equilibrium "
+                    "without load; tension positive):", st.bold, keep=True)
+            rows = []
+            for k, sst in enumerate(states, start=1):
+                rows.append([Cell(f"S{k}", st.bold), ", ".join(sst.get("members", [])),
+                             ", ".join(sst.get("supports", [])) or "–",
+                             ", ".join(sst.get("tension", [])) or "–", ", ".join(sst.get("compression", [])) or "–"])
+            self.flow.add_table(Table(st, cw, [("state", 0.8), ("members", 3.2), ("supports", 1.6),
+                                               ("tension", 2.0), ("compression", 2.0)], rows),
+                                "States of self-stress (continued)")
+        if ck.get("redundancy_note"):
+            self._p(ck["redundancy_note"], st.small, MUTED)
+
+    def _critical_section(self):
+        f, ck, st, cw = self.f, self.f.check, self.st, self.cw
+        crit = list(ck.get("critical") or [])
+        crit_s = list(ck.get("critical_supports") or [])
+        removal = ck.get("removal") or {}
+        self._h("Critical members and restraints")
+        self._p("A member or a support restraint is critical when removing it alone adds a mechanism; "
+                "each claim is checked by analysing the scheme without it.", st.small, MUTED)
+        n = len(f.scheme.members)
+        if crit and len(crit) == n:
+            self._p(f"Every member is critical ({n} of {n}): no member can be lost without a mechanism.")
+        elif crit:
+            self._p(f"Critical members ({len(crit)} of {n}): " + ", ".join(crit) + ".")
+        else:
+            self._p("No member is critical: the scheme stays free of new mechanisms when any one member is lost.")
+        if crit and len(crit) < n:
+            x0, y0, x1, y1 = scheme_bounds(f.scheme)
+            aspect = (y1 - y0 + 1e-9) / (x1 - x0 + 1e-9)
+            h = min(max(self.cw * 0.7 * aspect + 60, 170.0), 300.0)
+
+            def draw(p, r, crit=crit):
+                p.fillRect(r, QColor(PALETTE.paper))
+                paint_scheme(p, f.scheme, None, r, caption=False, caution=False, show_ids=True,
+                             show_mode=False, background=False, highlight=crit)
+                p.setPen(pen(RULE, 0.8))
+                p.setBrush(Qt.NoBrush)
+                p.drawRect(r.adjusted(0.4, 0.4, -0.4, -0.4))
+                p.setFont(st.small)
+                p.setPen(QColor(MUTED))
+                p.drawText(r.adjusted(6, 4, -6, -4), int(Qt.AlignLeft | Qt.AlignTop),
+                           "critical members highlighted")
+
+            self.flow.add(Figure(h, draw, gap=6))
+        if crit_s:
+            self._p("Critical support restraints: " + ", ".join(crit_s) + ".")
+        rows = []
+        for key in ("members", "restraints"):
+            for item, rc in (removal.get(key) or {}).items():
+                if rc.get("status") == "critical":
+                    rows.append([Cell(item, st.bold), rc.get("description", ""),
+                                 Cell(f"{rc.get('mechanisms_after', '')}", st.mono, align=Qt.AlignRight), "",
+                                 ", ".join(rc.get("moving_nodes", []))])
+        if rows:
+            self.flow.add_table(Table(st, cw, [("item", 1.2), ("what removing it does", 5.0),
+                                               ("m after", 1.0, Qt.AlignRight), ("", 0.3),
+                                               ("nodes that then move", 2.8)],
+                                      rows), "Critical items (continued)")
+
     # ------------------------------------------------------------------ tables
     def _tables_section(self):
         s, st, cw = self.f.scheme, self.st, self.cw
-        n = 6 if self.f.classification.verdict == "unstable" else 5
-        self._h(f"{n}  Nodes, supports and members")
+        self._h("Nodes, supports and members")
         rows = [[Cell(nd.id, st.bold), Cell(_fmt(nd.x), st.mono, align=Qt.AlignRight),
                  Cell(_fmt(nd.y), st.mono, align=Qt.AlignRight), "", "full hinge" if nd.hinge else "",
                  _support_words(s, nd.id)] for nd in s.nodes.values()]
@@ -1034,6 +1242,7 @@ def write_report(scheme: Scheme, path, source_name: str | None = None, *, classi
 
     if QGuiApplication.instance() is None:
         raise RuntimeError("write_report needs a QGuiApplication (kinestat report makes one)")
+    shield_none_refcount()
     target = Path(path)
     facts = gather(scheme, source_name, classification=classification, when=when, extras=extras)
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".pdf", dir=str(target.parent or "."))

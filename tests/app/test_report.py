@@ -279,3 +279,25 @@ def test_saved_example_round_trip_keeps_hash(tmp_path):
     s = load(example_paths()[0])
     save(s, tmp_path / "again.json")
     assert content_hash(load(tmp_path / "again.json")) == content_hash(s)
+
+
+def test_many_qt_calls_after_a_report_do_not_abort_the_interpreter(tmp_path):
+    # PySide6 6.12 on CPython 3.11 drops a reference to None on every call of a method that
+    # returns nothing; without the shield 200 000 such calls exhaust None's count and the
+    # interpreter aborts with "none_dealloc" (CPython's own check; PEP 683 makes None immortal
+    # from 3.12 on, where this passes trivially)
+    code = (
+        "import os, sys\n"
+        "os.environ['QT_QPA_PLATFORM'] = 'offscreen'\n"
+        "from PySide6.QtGui import QGuiApplication\n"
+        "from PySide6.QtCore import QPointF\n"
+        "app = QGuiApplication([])\n"
+        "from kinestat.core.io import load\n"
+        "from kinestat.app.report import write_report\n"
+        f"write_report(load({str(example_paths()[0])!r}), {str(tmp_path / 'r.pdf')!r})\n"
+        "p = QPointF()\n"
+        "for _ in range(200000):\n"
+        "    p.setX(1.0)\n"
+        "print('alive')\n")
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert r.returncode == 0 and r.stdout.strip() == "alive", r.stderr[-500:]
