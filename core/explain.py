@@ -71,16 +71,16 @@ def _support_reason(scheme: Scheme, result) -> list[str]:
     return out
 
 
-def _collinear_joints(scheme: Scheme, system, rel_tol: float) -> list[tuple[str, str, str, float]]:
+def _collinear_joints(scheme: Scheme, system, rel_tol: float) -> list[tuple[str, str, str, float, float]]:
     """Pinned joints (no rotation DOF) where exactly two members meet almost in line.
 
-    Returns (node, member a, member b, offset of the node from the line through the far ends).
+    Returns (node, member a, member b, offset of the node from the line through the far
+    ends, that offset relative to the shorter member) for relative offsets up to ``rel_tol``.
     """
     cache = getattr(system, "_collinear_cache", None)
     if cache is None:
         cache = system._collinear_cache = _collinear_candidates(scheme, system)
-    size = scheme.size()
-    return [c for c in cache if c[3] <= rel_tol * size]
+    return [c for c in cache if c[4] <= rel_tol]
 
 
 def _collinear_candidates(scheme: Scheme, system) -> list[tuple[str, str, str, float]]:
@@ -109,13 +109,16 @@ def _collinear_candidates(scheme: Scheme, system) -> list[tuple[str, str, str, f
     W = P - PA
     off = np.abs(D[:, 0] * W[:, 1] - D[:, 1] * W[:, 0]) / Ls
     between = (W[:, 0] * D[:, 0] + W[:, 1] * D[:, 1]) / (Ls * Ls)
-    size = scheme.size()
-    keep = np.nonzero((L > 0) & (off <= 1e-3 * size) & (between > 0) & (between < 1))[0]
+    la = np.hypot(*(P - PA).T)
+    lb = np.hypot(*(P - PB).T)
+    short = np.minimum(la, lb)
+    rel = off / np.where(short > 0, short, 1.0)
+    keep = np.nonzero((L > 0) & (rel <= 1e-3) & (between > 0) & (between < 1))[0]
     out = []
     for k in keep.tolist():
         nid, (a, b) = cand[k]
         if mem[a].rise == 0 and mem[b].rise == 0:
-            out.append((nid, a, b, float(off[k])))
+            out.append((nid, a, b, float(off[k]), float(rel[k])))
     return out
 
 
@@ -137,7 +140,7 @@ def explain(scheme: Scheme, result) -> list[str]:
         else:
             out.append(f"the supports leave {result.rigid_body_mechanisms} rigid-body motion"
                        f"{'s' if result.rigid_body_mechanisms != 1 else ''} of the scheme free")
-    for nid, a, b, _ in _collinear_joints(scheme, system, 1e-9):
+    for nid, a, b, _, _ in _collinear_joints(scheme, system, 1e-9):
         out.append(f"collinear members: {a} and {b} meet in line at the pinned joint {nid}, which can move "
                    "across that line (only infinitesimally; the members would have to stretch)")
     # mechanisms that live in the releases only
@@ -208,61 +211,72 @@ def _stressed_members(result) -> list[str]:
 
 
 def near_singular_findings(scheme: Scheme, result) -> list[Finding]:
-    """Warnings for geometry that is close to a mechanism (verdict kept)."""
+    """Warnings for geometry that is close to a mechanism (the verdict is kept).
+
+    Decided by the rank policy: a stable scheme whose smallest retained singular value is
+    isolated below ``NEAR_RTOL`` (see :mod:`.rank`).  The cause is then named where it is
+    one a checker knows (a joint nearly in line, three hinges nearly in line, reaction
+    lines nearly concurrent or parallel), with its margin; otherwise the nodes that would
+    move most are listed.
+    """
     from .rank import NEAR_GAP, NEAR_RTOL
 
-    out: list[Finding] = []
     rr = result.rank
+    if result.mechanisms > 0:
+        return []
+    smin, snext = rr.sigma_min_kept, rr.sigma_next
+    if not (math.isfinite(smin) and smin <= NEAR_RTOL):
+        return []
+    if math.isfinite(snext) and snext < NEAR_GAP * smin:
+        return []  # a soft band (e.g. a slender but sound truss), not one near-singular spot
+    out: list[Finding] = []
     system = result.system
     size = scheme.size()
     units = scheme.units
-    collinear = _collinear_joints(scheme, system, 1e-3)
-    for nid, a, b, off in collinear:
-        if off > 1e-9 * size:
+    ratio = f"smallest stiffness ratio {_fmt(smin)}"
+    moving: list[str] = []
+    if rr.soft_vector is not None:
+        v = rr.soft_vector
+        mags = sorted(((math.hypot(v[iu], v[iv]), nid) for nid, (iu, iv, _) in system.node_dof.items()),
+                      reverse=True)
+        moving = [n for mag, n in mags[:8] if mag > 0.2 * mags[0][0]]
+    for nid, a, b, off, rel in sorted(_collinear_joints(scheme, system, 1e-3), key=lambda c: c[4]):
+        if moving and nid not in moving:
+            continue
+        out.append(Finding(
+            f"near-singular geometry: joint {nid} is only {_fmt(off)} {units} ({_fmt(rel)} of the shorter "
+            f"member) off the line of {a} and {b}; the scheme is stable but close to a mechanism ({ratio}), "
+            "and forces there will be very large", (nid, a, b)))
+        return out
+    triple = _hinges_in_line(scheme, system, moving[:6])
+    if triple is not None:
+        h, a, b, off = triple
+        out.append(Finding(
+            f"near-singular geometry: hinge {h} is only {_fmt(off)} {units} ({_fmt(off / size)} of the "
+            f"scheme size) off the line through the pinned supports {a} and {b} (three hinges nearly in "
+            f"line); the scheme is stable but close to a mechanism ({ratio})", (h, a, b)))
+        return out
+    lines, rot = _reaction_lines(scheme, system)
+    if not rot and len(lines) >= 3:
+        nodes = tuple(sorted({nid for _, _, nid in lines}))
+        dirs = np.array([d / np.linalg.norm(d) for _, d, _ in lines])
+        ang = np.abs(np.arcsin(np.clip(dirs[:, 0] * dirs[0, 1] - dirs[:, 1] * dirs[0, 0], -1, 1)))
+        if float(ang.max()) <= 1e-3:
             out.append(Finding(
-                f"near-singular geometry: joint {nid} is only {_fmt(off)} {units} ({_fmt(off / size)} of the "
-                f"scheme size) off the line of {a} and {b}; the scheme is stable but close to a mechanism, and "
-                "forces there will be very large", (nid, a, b)))
-    if result.mechanisms == 0 and result.rigid_body_mechanisms == 0:
-        lines, rot = _reaction_lines(scheme, system)
-        if not rot and len(lines) >= 3:
-            pt, dist = _concurrency_point(lines)
-            if pt is not None and 1e-9 * size < dist <= 1e-3 * size:
-                nodes = tuple(sorted({nid for _, _, nid in lines}))
-                out.append(Finding(
-                    f"near-singular supports: the reaction lines at {', '.join(nodes)} nearly meet at one point "
-                    f"(({_fmt(pt[0])}, {_fmt(pt[1])}), within {_fmt(dist)} {units}); the scheme can barely "
-                    "resist turning about it", nodes))
-            dirs = np.array([d / np.linalg.norm(d) for _, d, _ in lines])
-            ang = np.abs(np.arcsin(np.clip(dirs[:, 0] * dirs[0, 1] - dirs[:, 1] * dirs[0, 0], -1, 1)))
-            if 1e-9 < float(ang.max()) <= 1e-3:
-                nodes = tuple(sorted({nid for _, _, nid in lines}))
-                out.append(Finding(
-                    f"near-singular supports: the reactions at {', '.join(nodes)} are within "
-                    f"{_fmt(math.degrees(float(ang.max())))}° of parallel", nodes))
-    # generic: an isolated small singular value not explained above
-    smin, snext = rr.sigma_min_kept, rr.sigma_next
-    if not out and result.mechanisms == 0 and math.isfinite(smin) and smin <= NEAR_RTOL:
-        isolated = not math.isfinite(snext) or snext >= NEAR_GAP * smin
-        if isolated and rr.soft_vector is not None:
-            v = rr.soft_vector
-            mags = []
-            for nid, (iu, iv, _) in system.node_dof.items():
-                mags.append((math.hypot(v[iu], v[iv]), nid))
-            mags.sort(reverse=True)
-            top = tuple(n for mag, n in mags[:3] if mag > 0.3 * mags[0][0])
-            triple = _hinges_in_line(scheme, system, [n for _, n in mags[:6]])
-            if triple is not None:
-                h, a, b, off = triple
-                out.append(Finding(
-                    f"near-singular geometry: hinge {h} is only {_fmt(off)} {units} ({_fmt(off / size)} of the "
-                    f"scheme size) off the line through the pinned supports {a} and {b} (three hinges nearly in "
-                    f"line); the scheme is stable but close to a mechanism (smallest stiffness ratio "
-                    f"{_fmt(smin)})", (h, a, b)))
-                return out
+                f"near-singular supports: the reactions at {', '.join(nodes)} are within "
+                f"{_fmt(math.degrees(float(ang.max())))}° of parallel ({ratio})", nodes))
+            return out
+        pt, dist = _concurrency_point(lines)
+        if pt is not None and dist <= 1e-3 * size:
             out.append(Finding(
-                f"near-singular geometry: the scheme is close to a mechanism (smallest stiffness ratio "
-                f"{_fmt(smin)}); the nodes that would move most: {', '.join(top)}", top))
+                f"near-singular supports: the reaction lines at {', '.join(nodes)} nearly meet at one point "
+                f"(({_fmt(pt[0])}, {_fmt(pt[1])}), within {_fmt(dist)} {units}); the scheme can barely "
+                f"resist turning about it ({ratio})", nodes))
+            return out
+    top = tuple(moving[:3])
+    out.append(Finding(
+        f"near-singular geometry: the scheme is close to a mechanism ({ratio})"
+        + (f"; the nodes that would move most: {', '.join(top)}" if top else ""), top))
     return out
 
 

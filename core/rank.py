@@ -264,6 +264,13 @@ def sparse_rank(A: sp.csc_matrix, want_mech: bool = True, max_basis: int = 64,
             basis = X[:, :max(m_, lower_m)]
             route = "sparse-checked"
         m = s - (cols - rows)
+    if m == 0 and not math.isfinite(kept):
+        # the smallest singular values for the near-singular test (inverse iteration converges to
+        # the eigenvalues of K nearest tau, i.e. the smallest ones when m = 0)
+        X, r = _ritz_null(A.T, K, lu, 3, smax, max_sweeps=6)
+        kept = float(r[0])
+        nxt = float(r[1]) if r.size > 1 else math.nan
+        soft = X[:, 0]
     if want_mech and m > 0 and (basis is None or basis.shape[1] < min(m, max_modes)):
         # a few mechanism modes for display, checked on A
         X, r = _ritz_null(A.T, K, lu, min(m, max_modes) + 6, smax, max_sweeps=12)

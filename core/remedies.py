@@ -204,57 +204,80 @@ def bar_candidates(scheme: Scheme, c: Classification) -> list[Candidate]:
     return out
 
 
+def with_restraint(scheme: Scheme, node: str, angle: float | None) -> Scheme:
+    """``scheme`` with a restraint added at ``node``: a reaction along ``angle`` (degrees) or,
+    for ``angle`` None, a rotation restraint.  A node without a support gets a roller (or a
+    custom rotation-only support).  Works on whatever support the node has by then, so such
+    changes compose."""
+    cur = scheme.supports.get(node)
+    if cur is None:
+        if angle is None:
+            return scheme.with_support(Support(node, "custom", 90.0, ("rotation",)))
+        return scheme.with_support(Support(node, "roller", angle % 360.0))
+    if angle is None:
+        word = "rotation"
+    else:
+        diff = (angle - cur.angle) % 180.0
+        if min(diff, 180.0 - diff) < 1e-9:
+            word = "along"
+        elif abs(diff - 90.0) < 1e-9:
+            word = "across"
+        else:
+            raise ValueError(f"support at node {node}: a restraint at {angle:g} degrees does not fit its frame")
+    return scheme.with_support(support_with_fixes(node, cur.angle, set(cur.fixes) | {word}))
+
+
+def _restraint_words(angle: float | None) -> str:
+    if angle is None:
+        return "a rotation restraint"
+    dw = direction_words(angle)
+    return f"a {dw} restraint" if dw in ("vertical", "horizontal") else f"a restraint {dw}"
+
+
 def support_candidates(scheme: Scheme, c: Classification) -> list[Candidate]:
     """A restraint added to each existing support; new rollers, pins and fixed supports."""
     system = c.system
     nrows = system.shape[0]
     out = []
-    for nid in system.active_nodes:
+
+    def column(nid: str, angle: float | None) -> np.ndarray:
         iu, iv, it = system.node_dof[nid]
+        v = np.zeros(nrows)
+        if angle is None:
+            v[it] = 1.0
+        else:
+            a = math.radians(angle)
+            v[iu], v[iv] = math.cos(a), math.sin(a)
+        return v
+
+    def make(nid: str, angles: tuple) -> Callable[[Scheme], Scheme]:
+        def apply(s: Scheme) -> Scheme:
+            for ang in angles:
+                s = with_restraint(s, nid, ang)
+            return s
+        return apply
+
+    for nid in system.active_nodes:
+        it = system.node_dof[nid][2]
         sup = scheme.supports.get(nid)
         if sup is not None:
             for word in ("along", "across", "rotation"):
-                if word in sup.fixes:
+                if word in sup.fixes or (word == "rotation" and it is None):
                     continue
-                if word == "rotation":
-                    if it is None:
-                        continue
-                    v = _unit(nrows, it)
-                    what = "rotation restraint"
-                else:
-                    ang = sup.angle + (90.0 if word == "across" else 0.0)
-                    a = math.radians(ang)
-                    v = np.zeros(nrows)
-                    v[iu], v[iv] = math.cos(a), math.sin(a)
-                    what = f"{direction_words(ang)} restraint"
+                ang = None if word == "rotation" else sup.angle + (90.0 if word == "across" else 0.0)
                 new = support_with_fixes(nid, sup.angle, set(sup.fixes) | {word})
-
-                def apply(s: Scheme, new=new) -> Scheme:
-                    return s.with_support(new)
-
-                out.append(Candidate("restraint", f"add a {what} to the support at {nid} (making it "
-                                     f"{_support_words(new, article=True)})", apply, COSTS["restraint"], v[:, None],
-                                     {"support": _support_json(new)}))
+                out.append(Candidate("restraint", f"add {_restraint_words(ang)} to the support at {nid} (making it "
+                                     f"{_support_words(new, article=True)})", make(nid, (ang,)), COSTS["restraint"],
+                                     column(nid, ang)[:, None], {"support": _support_json(new)}))
             continue
-        options = [("roller", Support(nid, "roller", 90.0), [(iu, iv, 90.0)]),
-                   ("roller", Support(nid, "roller", 0.0), [(iu, iv, 0.0)]),
-                   ("pin", Support(nid, "pin", 90.0), [(iu, iv, 90.0), (iu, iv, 180.0)])]
+        options = [("roller", (90.0,)), ("roller", (0.0,)), ("pin", (90.0, 180.0))]
         if it is not None:
-            options.append(("fixed", Support(nid, "fixed", 90.0), [(iu, iv, 90.0), (iu, iv, 180.0), None]))
-        for kind, sup_new, dirs in options:
-            V = np.zeros((nrows, len(dirs)))
-            for k, d in enumerate(dirs):
-                if d is None:
-                    V[it, k] = 1.0
-                else:
-                    a = math.radians(d[2])
-                    V[d[0], k], V[d[1], k] = math.cos(a), math.sin(a)
-
-            def apply(s: Scheme, sup_new=sup_new) -> Scheme:
-                return s.with_support(sup_new)
-
-            out.append(Candidate("support", f"add {_support_words(sup_new, article=True)} at {nid}", apply,
-                                 COSTS[kind], V, {"support": _support_json(sup_new)}))
+            options.append(("fixed", (90.0, 180.0, None)))
+        for kind, angles in options:
+            apply = make(nid, angles)
+            new = apply(scheme).supports[nid]
+            out.append(Candidate("support", f"add {_support_words(new, article=True)} at {nid}", apply, COSTS[kind],
+                                 np.array([column(nid, a) for a in angles]).T, {"support": _support_json(new)}))
     return out
 
 
@@ -288,8 +311,8 @@ def rigid_candidates(scheme: Scheme, c: Classification) -> list[Candidate]:
         for end, nid, rel in (("start", m.start, m.releases_start), ("end", m.end, m.releases_end)):
             for word in sorted(rel):
                 r = row_of.get(("release", m.id, f"{end}:{word}"))
-                if r is None or scheme.nodes[nid].hinge:
-                    continue
+                if r is None or (word == "moment" and scheme.nodes[nid].hinge):
+                    continue  # a full hinge keeps the end released: see "hinge made rigid"
                 it = system.node_dof[nid][2]
                 sup = scheme.supports.get(nid)
                 if word == "moment" and it is None and not (sup is not None and sup.fixes_rotation):
@@ -308,9 +331,11 @@ def rigid_candidates(scheme: Scheme, c: Classification) -> list[Candidate]:
     for nid, node in scheme.nodes.items():
         if not node.hinge or nid not in system.node_dof:
             continue
+        # beam ends that become rigid: those without a moment release of their own
         rows = [row_of[("release", m.id, f"{'start' if m.start == nid else 'end'}:moment")]
                 for m in scheme.members_at(nid)
-                if m.kind == "beam" and ("release", m.id, f"{'start' if m.start == nid else 'end'}:moment") in row_of]
+                if m.kind == "beam" and "moment" not in m.releases_at(nid)
+                and ("release", m.id, f"{'start' if m.start == nid else 'end'}:moment") in row_of]
         sup = scheme.supports.get(nid)
         fixed_rot = sup is not None and sup.fixes_rotation
         if len(rows) < (1 if fixed_rot else 2):
@@ -349,8 +374,12 @@ def rigid_candidates(scheme: Scheme, c: Classification) -> list[Candidate]:
         def apply(s: Scheme, nid=nid, ids=tuple(ids)) -> Scheme:
             for mid in ids:
                 mm = s.members[mid]
-                far = "releases_end" if mm.start == nid else "releases_start"
-                s = s.with_member(replace(mm, kind="beam", **{far: frozenset({"moment"})}))
+                near, far = ("releases_start", "releases_end") if mm.start == nid else ("releases_end", "releases_start")
+                if mm.kind == "bar":
+                    mm = replace(mm, kind="beam", **{near: frozenset(), far: frozenset({"moment"})})
+                else:  # already made a beam by another joint: make this end rigid too
+                    mm = replace(mm, **{near: getattr(mm, near) - {"moment"}})
+                s = s.with_member(mm)
             return s
 
         out.append(Candidate("rigid joint", f"make the joint at node {nid} rigid (bars {', '.join(ids)} become "
