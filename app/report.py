@@ -57,6 +57,8 @@ HASH_DIGITS = 12
 MAX_MOTION_MODES = 3
 #: tracing budget per direction for the report's positions
 MOTION_STEPS = 160
+#: single remedies listed
+MAX_REMEDIES = 10
 #: above this many members the positions are not traced (first-order shape only)
 MOTION_MAX_MEMBERS = 400
 
@@ -162,6 +164,12 @@ class Facts:
     classification: object
     motion: list[MotionView] = field(default_factory=list)
     motion_note: str = ""
+    #: core.primary.PrimaryResult (indeterminate schemes) or None
+    primary: object = None
+    #: core.remedies.RemedyResult (unstable schemes) or None
+    remedies: object = None
+    #: why a section could not be made (section -> words)
+    skipped: dict = field(default_factory=dict)
 
 
 def gather(scheme: Scheme, source_name: str | None = None, *, classification=None,
@@ -176,7 +184,31 @@ def gather(scheme: Scheme, source_name: str | None = None, *, classification=Non
               content_hash(scheme), _version(), check, c)
     if c.verdict == "unstable" and extras:
         f.motion, f.motion_note = _motion_views(scheme, c)
+    if extras and c.verdict == "indeterminate":
+        try:
+            from kinestat.core.primary import primary_structure
+
+            f.primary = primary_structure(scheme, c)
+        except Exception as exc:  # noqa: BLE001 - a report is still worth filing without it
+            f.skipped["primary"] = f"{type(exc).__name__}: {exc}"
+    if extras and c.verdict == "unstable":
+        try:
+            from kinestat.core.remedies import remedies
+
+            f.remedies = remedies(scheme, c)
+        except Exception as exc:  # noqa: BLE001
+            f.skipped["remedies"] = f"{type(exc).__name__}: {exc}"
     return f
+
+
+def changed_items(before: Scheme, after: Scheme) -> tuple[list[str], list[str], list[str]]:
+    """(members added or changed, members removed, nodes whose position, hinge or support changed)."""
+    members = [mid for mid, m in after.members.items() if before.members.get(mid) != m]
+    removed = [mid for mid in before.members if mid not in after.members]
+    nodes = [nid for nid, n in after.nodes.items()
+             if before.nodes.get(nid) != n or before.supports.get(nid) != after.supports.get(nid)]
+    nodes += [nid for nid in before.supports if nid not in after.nodes]
+    return members, removed, nodes
 
 
 def _motion_views(scheme: Scheme, c) -> tuple[list[MotionView], str]:
@@ -579,6 +611,10 @@ class Report:
             self._redundancy_section()
         if f.check.get("critical") is not None:
             self._critical_section()
+        if f.primary is not None or "primary" in f.skipped:
+            self._primary_section()
+        if f.remedies is not None or "remedies" in f.skipped:
+            self._remedies_section()
         self._tables_section()
         return flow.finish()
 
@@ -627,7 +663,7 @@ class Report:
         self._h("Drawing")
         x0, y0, x1, y1 = scheme_bounds(f.scheme)
         aspect = (y1 - y0 + 1e-9) / (x1 - x0 + 1e-9)
-        h = min(max(self.cw * aspect + 80, 240.0), 470.0)
+        h = min(max(self.cw * aspect + 80, 240.0), 470.0 if aspect <= 1 else 620.0)
         c = f.classification
 
         def draw(p, r):
@@ -1094,6 +1130,107 @@ class Report:
                                                ("m after", 1.0, Qt.AlignRight), ("", 0.3),
                                                ("nodes that then move", 2.8)],
                                       rows), "Critical items (continued)")
+
+    # ------------------------------------------------------------------ primary structure, remedies
+    def _changed_drawing(self, edited: Scheme, caption: str, height: float | None = None) -> None:
+        """The edited scheme with what changed highlighted and removed members dashed."""
+        before = self.f.scheme
+        members, removed, nodes = changed_items(before, edited)
+        st = self.st
+        x0, y0, x1, y1 = scheme_bounds(before)
+        aspect = (y1 - y0 + 1e-9) / (x1 - x0 + 1e-9)
+        h = height or min(max(self.cw * 0.7 * aspect + 60, 170.0), 300.0 if aspect <= 1 else 400.0)
+
+        def draw(p, r):
+            p.fillRect(r, QColor(PALETTE.paper))
+            T = ModelTransform.fit(scheme_bounds(before), r, margin=max(36.0, 0.08 * min(r.width(), r.height())))
+            paint_scheme(p, edited, None, r, transform=T, caption=False, caution=False, show_ids=True,
+                         show_mode=False, background=False, highlight=members + nodes)
+            for mid in removed:
+                m = before.members[mid]
+                a, b = T.map(*before.node_xy(m.start)), T.map(*before.node_xy(m.end))
+                p.setPen(pen(MUTED, 1.2, Qt.DashLine))
+                p.drawLine(a, b)
+                c = (a + b) / 2
+                p.setPen(pen(PALETTE.mechanism, 1.6))
+                p.drawLine(c + QPointF(-5, -5), c + QPointF(5, 5))
+                p.drawLine(c + QPointF(-5, 5), c + QPointF(5, -5))
+                p.setFont(st.label)
+                p.setPen(QColor(MUTED))
+                p.drawText(c + QPointF(7, -5), f"{mid} cut")
+            p.setPen(pen(RULE, 0.8))
+            p.setBrush(Qt.NoBrush)
+            p.drawRect(r.adjusted(0.4, 0.4, -0.4, -0.4))
+            p.setFont(st.small)
+            p.setPen(QColor(MUTED))
+            p.drawText(r.adjusted(6, 4, -6, -4), int(Qt.AlignLeft | Qt.AlignTop), caption)
+
+        self.flow.add(Figure(h, draw, gap=6))
+
+    def _primary_section(self):
+        f, st, cw = self.f, self.st, self.cw
+        self._h("A primary structure")
+        res = f.primary
+        if res is None:
+            self._p(f"Not available: {f.skipped.get('primary', '')}")
+            return
+        self._p("Releases that leave the scheme stable and statically determinate: the redundants of a "
+                "force-method hand analysis. Each set is the complement of a column basis of the "
+                "equilibrium matrix and was re-analysed (m = 0, s = 0) before it is shown.", st.small, MUTED)
+        ps = res.primary
+        if ps is None:
+            self._p(res.note or "No primary structure was found.")
+            return
+        if not ps.releases:
+            self._p(res.note)
+            return
+        self._p(f"Proposed ({ps.preference}): {res.note}.", st.bold, keep=True)
+        rows = []
+        for k, rel in enumerate(ps.releases, start=1):
+            st_k = ps.states[k - 1] if k - 1 < len(ps.states) else None
+            rows.append([Cell(f"X{k}", st.bold), rel.kind, rel.description,
+                         ", ".join(st_k.members) if st_k is not None else ""])
+        self.flow.add_table(Table(st, cw, [("redundant", 1.0), ("release", 1.2), ("what", 4.2),
+                                           ("its state of self-stress (members)", 3.2)], rows),
+                            "Primary structure (continued)")
+        self._changed_drawing(ps.scheme, "primary structure: released items highlighted, cut members dashed")
+        if res.alternatives:
+            self._p("Other primary structures (each verified the same way):", st.bold, keep=True)
+            for alt in res.alternatives:
+                self._p(f"{alt.preference}: " + "; ".join(r.description for r in alt.releases) + ".",
+                        indent=14, marker="–")
+
+    def _remedies_section(self):
+        f, st, cw = self.f, self.st, self.cw
+        self._h("Remedies")
+        res = f.remedies
+        if res is None:
+            self._p(f"Not available: {f.skipped.get('remedies', '')}")
+            return
+        self._p("Single changes that remove mechanisms, each re-analysed before it is listed; ranked by the "
+                "mechanisms removed, then by the size of the change. These are starting points for the "
+                "designer, not designs.", st.small, MUTED)
+        small = res.smallest_set
+        if small is not None and small.changes:
+            words = "change removes" if len(small.changes) == 1 else "changes remove"
+            self._p(f"A smallest set found: {len(small.changes)} {words} all {res.mechanisms} "
+                    f"mechanism(s), leaving m = {small.mechanisms_after}, s = {small.self_stress_after}"
+                    + (f" (at least {small.lower_bound} are needed)" if small.lower_bound != len(small.changes)
+                       else "") + ":", st.bold, keep=True)
+            for cd in small.changes:
+                self._p(cd.description, indent=14, marker="–", keep=True)
+            self._changed_drawing(small.scheme, "after the smallest set of changes: changed items highlighted")
+        if res.remedies:
+            rows = [[Cell(str(k), st.bold), r.description,
+                     Cell(str(r.mechanisms_removed), st.mono, align=Qt.AlignRight),
+                     Cell(f"{r.mechanisms_after} / {r.self_stress_after}", st.mono, align=Qt.AlignRight)]
+                    for k, r in enumerate(res.remedies[:MAX_REMEDIES], start=1)]
+            self._p("Single changes:", st.bold, keep=True)
+            self.flow.add_table(Table(st, cw, [("#", 0.4), ("change", 6.5), ("removes", 1.0, Qt.AlignRight),
+                                               ("m / s after", 1.3, Qt.AlignRight)], rows),
+                                "Single changes (continued)")
+        if res.note:
+            self._p(res.note + ".", st.small, MUTED)
 
     # ------------------------------------------------------------------ tables
     def _tables_section(self):

@@ -118,6 +118,38 @@ def check_report_against_json(scheme, pdf: Path, info) -> tuple[list[str], str]:
     for key in ("critical",):
         for mid in ck.get(key) or []:
             assert mid in words(text)
+    # redundancy per member: each share beside its member (layout keeps a table row on a line);
+    # R is a projector, so the shares add up to its rank s (von Scheven, Ramm & Bischoff 2021)
+    red = ck.get("redundancy")
+    if red and ck["self_stress"]:
+        for mid, v in red["members"].items():
+            kind = scheme.members[mid].kind
+            assert re.search(rf"\b{re.escape(mid)} {kind} {float(v):.3f}\b", lay), mid
+        assert abs(sum(red["members"].values()) - ck["self_stress"]) < 1e-6
+        assert f"Sum over the members: {ck['self_stress']} (= s)" in text
+    crit = ck.get("critical")
+    if crit and len(crit) < len(scheme.members):
+        assert f"Critical members ({len(crit)} of {len(scheme.members)}): {', '.join(crit)}." in text
+    elif crit:
+        assert f"Every member is critical ({len(crit)} of {len(crit)})" in text
+    # the primary structure has exactly s releases, the redundants X1..Xs of the force method
+    if ck["verdict"] == "indeterminate":
+        from kinestat.core.primary import primary_structure
+
+        ps = primary_structure(scheme).primary
+        assert ps is not None and len(ps.releases) == ck["self_stress"]
+        for k, rel in enumerate(ps.releases, start=1):
+            assert f"X{k}" in words(text) and loose(rel.description) in loose(text)
+        assert f"X{len(ps.releases) + 1}" not in words(text)
+    if ck["verdict"] == "unstable":
+        from kinestat.core.remedies import remedies
+
+        res = remedies(scheme)
+        for rem in res.remedies[:10]:
+            assert loose(rem.description) in loose(text)
+        if res.smallest_set is not None:
+            for cd in res.smallest_set.changes:
+                assert loose(cd.description) in loose(text)
     # every node and member id, and the counts of each, as in the scheme
     ws = words(text)
     assert set(scheme.nodes) <= ws
