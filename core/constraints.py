@@ -48,6 +48,8 @@ from .model import Scheme, arc_end_angle
 DENSE_MAX_VARS = 150
 #: rank decisions on Phi_q with at most this many entries use a dense SVD
 DENSE_MAX_ENTRIES = 250_000
+#: beyond the sparse route's basis size, a dense mechanism basis is computed up to this many entries
+DENSE_BASIS_MAX_ENTRIES = 4_000_000
 
 
 def effective_releases(scheme: Scheme, member_id: str, node_id: str) -> frozenset[str]:
@@ -577,21 +579,32 @@ def lsq_step(Jm: sp.spmatrix, F: np.ndarray) -> np.ndarray:
     return Jm.T @ lu.solve(F)
 
 
-@dataclass
 class Nullity:
-    """Rank decision on Phi_q: mechanisms and states of self-stress of the body model."""
+    """Rank decision on Phi_q: mechanisms and states of self-stress of the body model.
 
-    m: int
-    #: all states of self-stress, the closed rigid loops inside bodies included
-    s: int
-    #: self-stress states carried by the constraint rows (the ones that can act on a motion)
-    s_rows: int
-    #: orthonormal null vectors of Phi_q (n x m): the first-order mechanisms in q-space
-    mech_basis: np.ndarray
-    #: orthonormal left null vectors of Phi_q (rows x s_rows): joint-force self-stresses
-    stress_basis: np.ndarray
-    #: self-stress inside bodies without rows (closed rigid loops, pin-ended members within a body)
-    internal_self_stress: int
+    ``mech_basis``: orthonormal null vectors of Phi_q (n x m), the first-order mechanisms in
+    q-space (None only when a large model has more mechanisms than the sparse route returns).
+    ``stress_basis``: orthonormal left null vectors of Phi_q (rows x s_rows), the joint-force
+    self-stresses, computed when first asked for.  ``s`` counts all states, ``s_rows`` those
+    carried by rows (the ones that can act on a motion), ``internal_self_stress`` the others
+    (closed rigid loops, pin-ended members within a body).
+    """
+
+    def __init__(self, m: int, s: int, s_rows: int, mech_basis, stress_basis, internal_self_stress: int,
+                 A=None):
+        self.m, self.s, self.s_rows = m, s, s_rows
+        self.mech_basis = mech_basis
+        self._stress_basis = stress_basis
+        self.internal_self_stress = internal_self_stress
+        self._A = A
+
+    @property
+    def stress_basis(self) -> np.ndarray:
+        if self._stress_basis is None:
+            from .rank import null_space_basis
+
+            self._stress_basis = null_space_basis(self._A, self.s_rows)
+        return self._stress_basis
 
 
 def null_space(model: ConstraintModel, q: np.ndarray | None = None) -> Nullity:
@@ -603,7 +616,7 @@ def null_space(model: ConstraintModel, q: np.ndarray | None = None) -> Nullity:
     states of self-stress without any row, and a pin-ended member with both ends on one body
     carries one; they are added from :meth:`ConstraintModel.internal_self_stress`.
     """
-    from .rank import decide_rank, decide_zero_count, dense_rank, null_space_basis
+    from .rank import decide_rank, decide_zero_count, dense_rank
 
     q = model.q0 if q is None else q
     loops = model.internal_self_stress()
@@ -622,11 +635,10 @@ def null_space(model: ConstraintModel, q: np.ndarray | None = None) -> Nullity:
         return Nullity(model.n - rank, model.r - rank + loops, model.r - rank, Vt[rank:].T.copy(),
                        U[:, rank:].copy(), loops)
     A = sp.csc_matrix(Jm.T)
-    rr = decide_rank(A, want_mech=True, want_stress=True)
+    rr = decide_rank(A, want_mech=True, want_stress=False)
     D = rr.mech_basis
-    if D is None or D.shape[1] != rr.m:
+    if (D is None or D.shape[1] != rr.m) and model.n * model.r <= DENSE_BASIS_MAX_ENTRIES:
         D = dense_rank(A, want_stress=False).mech_basis
-    W = rr.stress_basis
-    if W is None or W.shape[1] != rr.s:
-        W = null_space_basis(A, rr.s)
-    return Nullity(rr.m, rr.s + loops, rr.s, D, W, loops)
+    elif D is not None and D.shape[1] != rr.m:
+        D = None
+    return Nullity(rr.m, rr.s + loops, rr.s, D, None, loops, A)

@@ -484,6 +484,8 @@ def trace(scheme: Scheme, mode: int = 1, weights=None, steps: int = DEFAULT_STEP
     if verdict.motion == "none":
         raise ValueError("the scheme has no mechanism: nothing moves")
     nul = verdict.nullity or null_space(model)
+    if nul.mech_basis is None:
+        raise ValueError(f"{nul.m} mechanisms on a model this large: too many to trace one by one")
     modes = canonical_modes(model, nul.mech_basis)
     if weights is not None:
         d_req = combine(modes, weights)

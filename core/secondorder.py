@@ -42,6 +42,8 @@ from .model import Scheme
 PROBE_STEPS = (0.02, 0.05)
 #: a probe converges when max |Phi| falls below this (fraction of the model size)
 PROBE_TOL = 1e-12
+#: local searches for the common null cone of several forms
+MAX_CONE_STARTS = 24
 #: the confirming probe of a second-order verdict runs on models up to this many unknowns
 PROBE_MAX_VARS = 300
 
@@ -128,7 +130,8 @@ def prestress_margin(forms: list[np.ndarray]) -> tuple[float, np.ndarray | None]
         best = max((lam([1.0]), np.array([1.0])), (lam([-1.0]), np.array([-1.0])), key=lambda t: t[0])
         return best
     rng = np.random.default_rng(2024)
-    starts = [np.eye(s)[k] * sg for k in range(s) for sg in (1, -1)] + list(rng.standard_normal((6, s)))
+    starts = ([np.eye(s)[k] * sg for k in range(min(s, 6)) for sg in (1, -1)]
+              + list(rng.standard_normal((6, s))))
     best = (-math.inf, None)
     for a0 in starts:
         res = opt.minimize(lambda a: -lam(a), a0, method="Nelder-Mead",
@@ -190,6 +193,9 @@ def null_cone(forms: list[np.ndarray], tol: float, max_candidates: int = 8) -> l
     for H in forms:
         starts += list(np.linalg.eigh((H + H.T) / 2)[1].T)
     starts += list(rng.standard_normal((8, m)))
+    if len(starts) > MAX_CONE_STARTS:
+        keep = rng.choice(len(starts), MAX_CONE_STARTS, replace=False)
+        starts = [starts[k] for k in sorted(keep)]
     for b0 in starts:
         res = opt.minimize(g, b0, jac=True, method="BFGS", options={"gtol": 1e-14, "maxiter": 500})
         add(res.x)
@@ -243,7 +249,12 @@ def assess(scheme_or_model: Scheme | ConstraintModel, nul: Nullity | None = None
         return Verdict("none", m, s, "no mechanism", nullity=nul)
     if nul.s_rows == 0:
         why = "no state of self-stress acts on the motion: every first-order mechanism is finite"
-        return Verdict("finite", m, s, why, directions=[D[:, k] for k in range(m)], nullity=nul)
+        dirs = [] if D is None else [D[:, k] for k in range(m)]
+        return Verdict("finite", m, s, why, directions=dirs, nullity=nul)
+    if D is None:
+        why = (f"{m} mechanisms on a model this large: the second-order test was not run; with this many "
+               "independent mechanisms the scheme is taken to move finitely")
+        return Verdict("finite", m, s, why, nullity=nul)
     tol = _tolerance(model)
     forms = quadratic_forms(model, nul)
     eff = _effective_forms(forms, tol)
