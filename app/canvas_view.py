@@ -18,6 +18,8 @@ from .canvas_scene import to_model
 #: capture distance for snapping and picking, in pixels
 SNAP_PX = 9.0
 _ENTRY_CHARS = set("0123456789.,-<@ ")
+#: zoom limits in pixels per model unit (the scene spans 2e5 units: keep scroll ranges in int range)
+MIN_ZOOM, MAX_ZOOM = 0.05, 2000.0
 
 
 class CanvasView(QGraphicsView):
@@ -62,22 +64,26 @@ class CanvasView(QGraphicsView):
         return SNAP_PX * self.units_per_px()
 
     def set_scale(self, px_per_unit: float) -> None:
-        px_per_unit = min(max(px_per_unit, 0.05), 5e4)
+        px_per_unit = min(max(px_per_unit, MIN_ZOOM), MAX_ZOOM)
         self.resetTransform()
         self.scale(px_per_unit, px_per_unit)
         self.scene().set_units_per_px(1.0 / px_per_unit)
         self.zoom_changed.emit(px_per_unit)
 
     def zoom_by(self, factor: float, at: QPointF | None = None) -> None:
-        new = min(max(self.px_per_unit() * factor, 0.05), 5e4)
+        """Zoom by ``factor`` keeping the scene point under ``at`` (viewport pixels) in place."""
+        new = min(max(self.px_per_unit() * factor, MIN_ZOOM), MAX_ZOOM)
         factor = new / self.px_per_unit()
-        if at is not None:
-            before = self.mapToScene(at.toPoint())
+        centre_px = QPointF(self.viewport().rect().center())
+        at = centre_px if at is None else QPointF(at)
+        s0 = self.px_per_unit()
+        c0 = self.mapToScene(self.viewport().rect().center())
+        target = QPointF(c0.x() + (at.x() - centre_px.x()) / s0, c0.y() + (at.y() - centre_px.y()) / s0)
+        anchor = self.transformationAnchor()
+        self.setTransformationAnchor(QGraphicsView.NoAnchor)
         self.scale(factor, factor)
-        if at is not None:
-            after = self.mapToScene(at.toPoint())
-            d = after - before
-            self.translate(d.x(), d.y())
+        self.setTransformationAnchor(anchor)
+        self.centerOn(QPointF(target.x() - (at.x() - centre_px.x()) / new, target.y() - (at.y() - centre_px.y()) / new))
         self.scene().set_units_per_px(1.0 / new)
         self.zoom_changed.emit(new)
         self.viewport().update()
@@ -90,7 +96,7 @@ class CanvasView(QGraphicsView):
         m = 70.0
         sx = (vp.width() - 2 * m) / max(r.width(), 1e-6)
         sy = (vp.height() - 2 * m) / max(r.height(), 1e-6)
-        self.set_scale(max(min(sx, sy), 0.05))
+        self.set_scale(min(sx, sy))
         self.centerOn(r.center())
 
     def pan_pixels(self, dx: float, dy: float) -> None:

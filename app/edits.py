@@ -120,26 +120,29 @@ def crossings(scheme: Scheme, member_ids: Iterable[str] | None = None) -> list[t
 
 
 def join_crossings(scheme: Scheme, member_ids: Iterable[str] | None = None) -> Scheme:
-    """Join members where they cross (split both and share a new node), as asked by the user."""
-    member_ids = None if member_ids is None else set(member_ids)
+    """Join members where they cross (split both and share a new node), as asked by the user.
+
+    With ``member_ids`` only the crossings of those members (and of their pieces) are joined.
+    """
+    track = None if member_ids is None else set(member_ids)
     for _ in range(10000):
-        found = crossings(scheme, member_ids)
+        found = crossings(scheme, track)
         if not found:
             return scheme
         x, y, under, over = found[0]
+        before = set(scheme.members)
         scheme, nid = split_member(scheme, under, x, y)
-        # the other member: the piece that still passes through (x, y)
-        target = over if over in scheme.members else None
-        scheme = _split_through(scheme, target, x, y, nid)
-        if member_ids is not None:
-            member_ids |= {m.id for m in scheme.members_at(nid)}
+        if track is not None and under in track:
+            track |= set(scheme.members) - before
+        before = set(scheme.members)
+        scheme = _split_through(scheme, over, x, y, nid)
+        if track is not None and over in track:
+            track |= set(scheme.members) - before
     return scheme
 
 
-def _split_through(scheme: Scheme, member_id: str | None, x: float, y: float, nid: str) -> Scheme:
-    """Split ``member_id`` at (x, y) and re-point the new joint onto the existing node ``nid``."""
-    if member_id is None:
-        return scheme
+def _split_through(scheme: Scheme, member_id: str, x: float, y: float, nid: str) -> Scheme:
+    """Split ``member_id`` at (x, y) and put the new joint onto the existing node ``nid``."""
     scheme, tmp = split_member(scheme, member_id, x, y)
     if tmp == nid:
         return scheme

@@ -39,7 +39,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable, Sequence
 
-from PySide6.QtCore import QMarginsF, QPointF, QRectF, QSizeF, Qt
+from PySide6.QtCore import QMarginsF, QPointF, QRectF, Qt
 from PySide6.QtGui import (QBrush, QColor, QFont, QFontMetricsF, QPageLayout, QPageSize, QPainter,
                            QPdfWriter, QPen, QPolygonF)
 
@@ -57,6 +57,9 @@ HASH_DIGITS = 12
 MAX_MOTION_MODES = 3
 #: tracing budget per direction for the report's positions
 MOTION_STEPS = 160
+#: rows of the self-stress table; releases of an alternative primary structure spelled out
+MAX_STATE_ROWS = 30
+MAX_LISTED_RELEASES = 12
 #: single remedies listed
 MAX_REMEDIES = 10
 #: above this many members the positions are not traced (first-order shape only)
@@ -359,14 +362,6 @@ class Figure(Block):
         p.restore()
 
 
-class Spacer(Block):
-    def __init__(self, h: float):
-        self.height, self.gap = h, 0.0
-
-    def paint(self, p, r):
-        pass
-
-
 class Cell:
     """A table cell: text (wrapped) or a painter of a given height."""
 
@@ -562,6 +557,14 @@ def _fmt(x: float) -> str:
     return f"{x:.4g}"
 
 
+def _ids(items, limit: int = 12) -> str:
+    """Ids joined by commas; a long list is cut after ``limit`` with the total."""
+    items = list(items)
+    if len(items) <= limit:
+        return ", ".join(items)
+    return ", ".join(items[:limit]) + f", … ({len(items)} in all)"
+
+
 def _support_words(scheme: Scheme, nid: str) -> str:
     s = scheme.supports.get(nid)
     if s is None:
@@ -618,6 +621,30 @@ class Report:
         self._tables_section()
         return flow.finish()
 
+    def _frame(self, p: QPainter, r: QRectF, caption: str = "") -> None:
+        """The thin frame of a drawing panel, with its caption in the top left corner."""
+        p.setPen(pen(RULE, 0.8))
+        p.setBrush(Qt.NoBrush)
+        p.drawRect(r.adjusted(0.4, 0.4, -0.4, -0.4))
+        if caption:
+            p.setFont(self.st.small)
+            p.setPen(QColor(MUTED))
+            p.drawText(r.adjusted(6, 4, -6, -4), int(Qt.AlignLeft | Qt.AlignTop), caption)
+
+    def _drawing_height(self, share: float, pad: float, low: float, high: float, tall: float) -> float:
+        """Height of a drawing of the scheme ``share`` of the page wide (a taller cap for tall schemes)."""
+        x0, y0, x1, y1 = scheme_bounds(self.f.scheme)
+        aspect = (y1 - y0 + 1e-9) / (x1 - x0 + 1e-9)
+        return min(max(self.cw * share * aspect + pad, low), high if aspect <= 1 else tall)
+
+    def _opening(self, title: str, key: str):
+        """Heading of an optional section, and its result (None: says why and the section ends)."""
+        self._h(title)
+        res = getattr(self.f, key)
+        if res is None:
+            self._p(f"Not available: {self.f.skipped.get(key, '')}")
+        return res
+
     def _h(self, text: str) -> None:
         self.section += 1
         self.flow.add(Heading(self.st, f"{self.section}  {text}"))
@@ -655,23 +682,20 @@ class Report:
                                            else " (the scheme moves only to first order and locks at a "
                                                 "higher order; still unfit to carry load)."
                                            if motion == "infinitesimal" else "."))
-        if ck.get("critical"):
-            self._p("Critical members (removing one adds a mechanism): " + ", ".join(ck["critical"]) + ".")
+        crit = ck.get("critical") or []
+        if crit and len(crit) < len(self.f.scheme.members):
+            self._p("Critical members (removing one adds a mechanism): " + _ids(crit, 20) + ".")
 
     def _drawing_section(self):
         f, st = self.f, self.st
         self._h("Drawing")
-        x0, y0, x1, y1 = scheme_bounds(f.scheme)
-        aspect = (y1 - y0 + 1e-9) / (x1 - x0 + 1e-9)
-        h = min(max(self.cw * aspect + 80, 240.0), 470.0 if aspect <= 1 else 620.0)
+        h = self._drawing_height(1.0, 80.0, 240.0, 470.0, 620.0)
         c = f.classification
 
         def draw(p, r):
             p.fillRect(r, QColor(PALETTE.paper))
             paint_scheme(p, f.scheme, c, r, caption=False, caution=False, show_ids=True, background=False)
-            p.setPen(pen(RULE, 0.8))
-            p.setBrush(Qt.NoBrush)
-            p.drawRect(r.adjusted(0.4, 0.4, -0.4, -0.4))
+            self._frame(p, r)
 
         self.flow.add(Figure(h, draw, gap=3))
         legend = (f"Member ids beside each member, node ids beside each node; units {f.scheme.units}. "
@@ -841,8 +865,6 @@ class Report:
                 p.drawLine(T.map(*s.node_xy(m.start)), T.map(*s.node_xy(m.end)))
         paint_scheme(p, s, None, r, transform=T, caption=False, caution=False, show_ids=True,
                      show_mode=False, background=False)
-        if v.frames and v.motion != "finite":
-            pass
         # body labels and instant centres
         p.setFont(self.st.bold)
         for k, b in enumerate(v.bodies, start=1):
@@ -868,12 +890,7 @@ class Report:
                 q = mid + QPointF(14, 14)
                 self._arrow(p, q, q + QPointF(22 * d[0], -22 * d[1]), colour)
                 self._tag(p, q + QPointF(24 * d[0] + 4, -24 * d[1] + 4), f"I{k}∞", colour)
-        p.setPen(pen(RULE, 0.8))
-        p.setBrush(Qt.NoBrush)
-        p.drawRect(r.adjusted(0.4, 0.4, -0.4, -0.4))
-        p.setFont(self.st.small)
-        p.setPen(QColor(MUTED))
-        p.drawText(r.adjusted(6, 4, -6, -4), int(Qt.AlignLeft | Qt.AlignTop), "drawn position: bodies and instant centres")
+        self._frame(p, r, "drawn position: bodies and instant centres")
 
     def _paint_strip(self, p: QPainter, r: QRectF, v: MotionView) -> None:
         """Positions along the motion in a grid of panels, all on one scale, with the node paths."""
@@ -1073,13 +1090,16 @@ class Report:
             self._p("States of self-stress (local form: each is a smallest set of forces in equilibrium "
                     "without load; tension positive):", st.bold, keep=True)
             rows = []
-            for k, sst in enumerate(states, start=1):
-                rows.append([Cell(f"S{k}", st.bold), ", ".join(sst.get("members", [])),
-                             ", ".join(sst.get("supports", [])) or "–",
-                             ", ".join(sst.get("tension", [])) or "–", ", ".join(sst.get("compression", [])) or "–"])
+            for k, sst in enumerate(states[:MAX_STATE_ROWS], start=1):
+                rows.append([Cell(f"S{k}", st.bold), _ids(sst.get("members", [])),
+                             _ids(sst.get("supports", [])) or "–",
+                             _ids(sst.get("tension", [])) or "–", _ids(sst.get("compression", [])) or "–"])
             self.flow.add_table(Table(st, cw, [("state", 0.8), ("members", 3.2), ("supports", 1.6),
                                                ("tension", 2.0), ("compression", 2.0)], rows),
                                 "States of self-stress (continued)")
+            if len(states) > MAX_STATE_ROWS or ck["self_stress"] > len(states):
+                self._p(f"First {min(len(states), MAX_STATE_ROWS)} of {ck['self_stress']} states listed; "
+                        "kinestat check --json lists more.", st.small, MUTED)
         if ck.get("redundancy_note"):
             self._p(ck["redundancy_note"], st.small, MUTED)
 
@@ -1099,21 +1119,13 @@ class Report:
         else:
             self._p("No member is critical: the scheme stays free of new mechanisms when any one member is lost.")
         if crit and len(crit) < n:
-            x0, y0, x1, y1 = scheme_bounds(f.scheme)
-            aspect = (y1 - y0 + 1e-9) / (x1 - x0 + 1e-9)
-            h = min(max(self.cw * 0.7 * aspect + 60, 170.0), 300.0)
+            h = self._drawing_height(0.7, 60.0, 170.0, 300.0, 400.0)
 
             def draw(p, r, crit=crit):
                 p.fillRect(r, QColor(PALETTE.paper))
                 paint_scheme(p, f.scheme, None, r, caption=False, caution=False, show_ids=True,
                              show_mode=False, background=False, highlight=crit)
-                p.setPen(pen(RULE, 0.8))
-                p.setBrush(Qt.NoBrush)
-                p.drawRect(r.adjusted(0.4, 0.4, -0.4, -0.4))
-                p.setFont(st.small)
-                p.setPen(QColor(MUTED))
-                p.drawText(r.adjusted(6, 4, -6, -4), int(Qt.AlignLeft | Qt.AlignTop),
-                           "critical members highlighted")
+                self._frame(p, r, "critical members highlighted")
 
             self.flow.add(Figure(h, draw, gap=6))
         if crit_s:
@@ -1124,7 +1136,7 @@ class Report:
                 if rc.get("status") == "critical":
                     rows.append([Cell(item, st.bold), rc.get("description", ""),
                                  Cell(f"{rc.get('mechanisms_after', '')}", st.mono, align=Qt.AlignRight), "",
-                                 ", ".join(rc.get("moving_nodes", []))])
+                                 _ids(rc.get("moving_nodes", []))])
         if rows:
             self.flow.add_table(Table(st, cw, [("item", 1.2), ("what removing it does", 5.0),
                                                ("m after", 1.0, Qt.AlignRight), ("", 0.3),
@@ -1137,9 +1149,7 @@ class Report:
         before = self.f.scheme
         members, removed, nodes = changed_items(before, edited)
         st = self.st
-        x0, y0, x1, y1 = scheme_bounds(before)
-        aspect = (y1 - y0 + 1e-9) / (x1 - x0 + 1e-9)
-        h = height or min(max(self.cw * 0.7 * aspect + 60, 170.0), 300.0 if aspect <= 1 else 400.0)
+        h = height or self._drawing_height(0.7, 60.0, 170.0, 300.0, 400.0)
 
         def draw(p, r):
             p.fillRect(r, QColor(PALETTE.paper))
@@ -1158,21 +1168,14 @@ class Report:
                 p.setFont(st.label)
                 p.setPen(QColor(MUTED))
                 p.drawText(c + QPointF(7, -5), f"{mid} cut")
-            p.setPen(pen(RULE, 0.8))
-            p.setBrush(Qt.NoBrush)
-            p.drawRect(r.adjusted(0.4, 0.4, -0.4, -0.4))
-            p.setFont(st.small)
-            p.setPen(QColor(MUTED))
-            p.drawText(r.adjusted(6, 4, -6, -4), int(Qt.AlignLeft | Qt.AlignTop), caption)
+            self._frame(p, r, caption)
 
         self.flow.add(Figure(h, draw, gap=6))
 
     def _primary_section(self):
-        f, st, cw = self.f, self.st, self.cw
-        self._h("A primary structure")
-        res = f.primary
+        st, cw = self.st, self.cw
+        res = self._opening("A primary structure", "primary")
         if res is None:
-            self._p(f"Not available: {f.skipped.get('primary', '')}")
             return
         self._p("Releases that leave the scheme stable and statically determinate: the redundants of a "
                 "force-method hand analysis. Each set is the complement of a column basis of the "
@@ -1189,7 +1192,7 @@ class Report:
         for k, rel in enumerate(ps.releases, start=1):
             st_k = ps.states[k - 1] if k - 1 < len(ps.states) else None
             rows.append([Cell(f"X{k}", st.bold), rel.kind, rel.description,
-                         ", ".join(st_k.members) if st_k is not None else ""])
+                         _ids(st_k.members) if st_k is not None else ""])
         self.flow.add_table(Table(st, cw, [("redundant", 1.0), ("release", 1.2), ("what", 4.2),
                                            ("its state of self-stress (members)", 3.2)], rows),
                             "Primary structure (continued)")
@@ -1197,15 +1200,20 @@ class Report:
         if res.alternatives:
             self._p("Other primary structures (each verified the same way):", st.bold, keep=True)
             for alt in res.alternatives:
-                self._p(f"{alt.preference}: " + "; ".join(r.description for r in alt.releases) + ".",
-                        indent=14, marker="–")
+                if len(alt.releases) <= MAX_LISTED_RELEASES:
+                    what = "; ".join(r.description for r in alt.releases)
+                else:
+                    kinds: dict[str, int] = {}
+                    for r in alt.releases:
+                        kinds[r.kind] = kinds.get(r.kind, 0) + 1
+                    what = f"{len(alt.releases)} releases (" + ", ".join(f"{v} {k}" for k, v in kinds.items()) + \
+                        "; kinestat primary lists them)"
+                self._p(f"{alt.preference}: {what}.", indent=14, marker="–")
 
     def _remedies_section(self):
-        f, st, cw = self.f, self.st, self.cw
-        self._h("Remedies")
-        res = f.remedies
+        st, cw = self.st, self.cw
+        res = self._opening("Remedies", "remedies")
         if res is None:
-            self._p(f"Not available: {f.skipped.get('remedies', '')}")
             return
         self._p("Single changes that remove mechanisms, each re-analysed before it is listed; ranked by the "
                 "mechanisms removed, then by the size of the change. These are starting points for the "
@@ -1330,6 +1338,8 @@ class Report:
 
     def paint(self, pages) -> None:
         p = QPainter(self.w)
+        if not p.isActive():
+            raise OSError("the PDF writer could not start")
         try:
             p.setRenderHint(QPainter.Antialiasing, True)
             p.setRenderHint(QPainter.TextAntialiasing, True)
@@ -1388,8 +1398,8 @@ def write_report(scheme: Scheme, path, source_name: str | None = None, *, classi
         writer = _writer(tmp, facts, scheme.title or facts.source_name)
         rep = Report(facts, writer)
         pages = rep.build()
-        rep.paint(pages)
-        del writer  # flushes and closes the file
+        rep.paint(pages)  # QPainter.end() completes the document
+        rep = writer = None  # the writer closes its file when it is destroyed
         if os.path.getsize(tmp) == 0:
             raise OSError(f"cannot write the PDF to {target}")
         os.replace(tmp, target)
