@@ -182,9 +182,19 @@ class PrimaryResult:
         }
 
 
-def column_weights(system: System, weights: tuple[float, float, float]) -> np.ndarray:
+#: extra weight on the axial force of a curved beam: an axial release there acts along the end
+#: tangent, which mixes in the end moments, so it is not the removal of that force alone
+CURVED_AXIAL = 1e3
+
+
+def column_weights(system: System, weights: tuple[float, float, float], scheme: Scheme | None = None) -> np.ndarray:
     w_r, w_m, w_n = weights
-    return np.array([w_r if k == "reaction" else (w_m if k in ("Mi", "Mj") else w_n) for k, _, _ in system.cols])
+    w = np.array([w_r if k == "reaction" else (w_m if k in ("Mi", "Mj") else w_n) for k, _, _ in system.cols])
+    if scheme is not None:
+        for c, (k, item, _) in enumerate(system.cols):
+            if k == "N" and scheme.members[item].rise != 0:
+                w[c] *= CURVED_AXIAL
+    return w
 
 
 def qr_split(M: np.ndarray, weights: np.ndarray, rank: int) -> tuple[list[int], list[int]]:
@@ -221,12 +231,6 @@ def _build(scheme: Scheme, system: System, M: np.ndarray, kept: list[int], relea
     return PrimaryStructure(releases, edited, preference, after.mechanisms, after.self_stress, states)
 
 
-def _kind_rank(system: System, col: int, weights: tuple[float, float, float]) -> float:
-    k = system.cols[col][0]
-    w_r, w_m, w_n = weights
-    return w_r if k == "reaction" else (w_m if k in ("Mi", "Mj") else w_n)
-
-
 def primary_structure(scheme: Scheme, classification: Classification | None = None, *,
                       preference: str = "reactions first", max_alternatives: int = 5,
                       max_columns: int = 4000) -> PrimaryResult:
@@ -257,34 +261,40 @@ def primary_structure(scheme: Scheme, classification: Classification | None = No
         return True
 
     order = [preference] + [p for p in WEIGHTINGS if p != preference]
+    first_split = None
     for pref in order:
-        kept, released = qr_split(M, column_weights(system, WEIGHTINGS[pref]), rank)
+        kept, released = qr_split(M, column_weights(system, WEIGHTINGS[pref], scheme), rank)
+        first_split = first_split or (pref, released)
         if frozenset(system.cols[x] for x in released) in seen:
             continue
         add(_build(scheme, system, M, kept, released, pref))
         if len(found) > max_alternatives:
             break
-    # single exchanges from the first one: put a release back, release a force of its state instead
-    if found and len(found) <= max_alternatives:
-        first = found[0]
+    # single exchanges from the first one found (or the first split when none passed):
+    # put a release back and release a force of its state of self-stress instead
+    if len(found) <= max_alternatives:
         col_of = {label: k for k, label in enumerate(system.cols)}
-        released0 = sorted(col_of[r.column] for r in first.releases)
+        if found:
+            base_pref = found[0].preference
+            released0 = sorted(col_of[r.column] for r in found[0].releases)
+        else:
+            base_pref, released0 = first_split
         kept0 = sorted(set(range(system.shape[1])) - set(released0))
-        w = WEIGHTINGS[first.preference]
+        wcol = column_weights(system, WEIGHTINGS[base_pref], scheme)
         gb = basis_from_columns(M, kept0, released0)
         S = gb.states(system.shape[1])
         swaps = []
         for j, cr in enumerate(released0):
             for b in np.nonzero(np.abs(S[:, j]) > 1e-9)[0].tolist():
                 if b != cr:
-                    swaps.append((_kind_rank(system, b, w), j, b))
+                    swaps.append((float(wcol[b]), j, b))
         swaps.sort()
         for _, j, b in swaps:
             if len(found) > max_alternatives:
                 break
             rel = sorted(released0[:j] + [b] + released0[j + 1:])
             kept = sorted(set(range(system.shape[1])) - set(rel))
-            add(_build(scheme, system, M, kept, rel, f"{first.preference}, exchange"))
+            add(_build(scheme, system, M, kept, rel, f"{base_pref}, exchange"))
     if not found:
         return PrimaryResult(m, s, None, [], "no choice of releases passed the re-analysis")
     # the requested preference first when it verified
