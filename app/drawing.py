@@ -355,7 +355,7 @@ def paint_scheme(painter: QPainter, scheme: Scheme, classification=None, rect: Q
                                        margin=max(36.0, 0.08 * min(draw_rect.width(), draw_rect.height())))
     T = transform
     hl = set(highlight)
-    k = max(1.0, base / 13.0)  # symbols and line weights grow with large outputs
+    k = max(1.0, base / 9.5)  # symbols and line weights grow with large outputs
 
     def poly(points):
         return QPolygonF([T.map(x, y) for x, y in points])
