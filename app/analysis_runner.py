@@ -27,7 +27,7 @@ def classify_scheme(scheme: Scheme):
 
 
 class _Signals(QObject):
-    done = Signal(int, object, object, float)  # revision, result, error, seconds
+    done = Signal(int, object, object, float, object)  # revision, result, error, seconds, thread id
 
 
 class _Job(QRunnable):
@@ -42,7 +42,7 @@ class _Job(QRunnable):
             res, err = classify_scheme(self.scheme), None
         except Exception as exc:  # noqa: BLE001 - reported to the user, never a crash
             res, err = None, exc
-        self.signals.done.emit(self.revision, res, err, time.perf_counter() - t0)
+        self.signals.done.emit(self.revision, res, err, time.perf_counter() - t0, threading.get_ident())
 
 
 class AnalysisRunner(QObject):
@@ -68,7 +68,8 @@ class AnalysisRunner(QObject):
         self.runs = 0
         self.dropped = 0
         self.last_seconds = 0.0
-        self.last_thread: int | None = None
+        #: thread id of the last background job (None until one ran)
+        self.worker_thread: int | None = None
         self._busy = False
         self._timer = QTimer(self)
         self._timer.setSingleShot(True)
@@ -101,7 +102,6 @@ class AnalysisRunner(QObject):
             res, err = classify_scheme(scheme), None
         except Exception as exc:  # noqa: BLE001
             res, err = None, exc
-        self.last_thread = threading.get_ident()
         self._finish(rev, res, err, time.perf_counter() - t0)
 
     def _start(self) -> None:
@@ -116,9 +116,9 @@ class AnalysisRunner(QObject):
         self._busy = True
         self._pool.start(_Job(rev, scheme, self._signals))
 
-    def _on_done(self, rev: int, res, err, seconds: float) -> None:
+    def _on_done(self, rev: int, res, err, seconds: float, thread_id) -> None:
         self._busy = False
-        self.last_thread = None
+        self.worker_thread = thread_id
         self._finish(rev, res, err, seconds)
         if self.doc.revision != self.result_revision and not self._timer.isActive():
             self._timer.start()
