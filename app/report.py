@@ -805,8 +805,9 @@ class Report:
             self.flow.add(Figure(300, lambda p, r, v=v: self._paint_bodies(p, r, v), gap=4))
             if len(v.frames) > 1:
                 rows = math.ceil(len(self._pick_frames(v)) / STRIP_COLUMNS)
-                self.flow.add(Figure(rows * (STRIP_PANEL_H + 8) - 8, lambda p, r, v=v: self._paint_strip(p, r, v),
-                                     gap=6))
+                for row in range(rows):
+                    self.flow.add(Figure(STRIP_PANEL_H, lambda p, r, v=v, row=row: self._paint_strip(p, r, v, row),
+                                         gap=8 if row < rows - 1 else 6))
             if v.bodies:
                 rows = []
                 for k, b in enumerate(v.bodies, start=1):
@@ -892,8 +893,8 @@ class Report:
                 self._tag(p, q + QPointF(24 * d[0] + 4, -24 * d[1] + 4), f"I{k}∞", colour)
         self._frame(p, r, "drawn position: bodies and instant centres")
 
-    def _paint_strip(self, p: QPainter, r: QRectF, v: MotionView) -> None:
-        """Positions along the motion in a grid of panels, all on one scale, with the node paths."""
+    def _paint_strip(self, p: QPainter, r: QRectF, v: MotionView, row: int) -> None:
+        """One row of the positions along the motion, every panel on one scale, with the node paths."""
         s = self.f.scheme
         picks = self._pick_frames(v)
         gap = 8.0
@@ -902,17 +903,13 @@ class Report:
             shown = v.frames
         else:
             shown = v.frames[min(i for i, _ in picks):max(i for i, _ in picks) + 1]
-        bounds = self._frame_bounds(shown)
-        T = None
-        for j, (i, label) in enumerate(picks):
-            row, col = divmod(j, STRIP_COLUMNS)
-            pr = QRectF(r.left() + col * (w + gap), r.top() + row * (STRIP_PANEL_H + gap), w, STRIP_PANEL_H)
+        T = ModelTransform.fit(self._frame_bounds(shown), QRectF(0, 0, w, STRIP_PANEL_H - 16), margin=24.0)
+        for col, (i, label) in enumerate(picks[row * STRIP_COLUMNS:(row + 1) * STRIP_COLUMNS]):
+            pr = QRectF(r.left() + col * (w + gap), r.top(), w, STRIP_PANEL_H)
+            Tj = ModelTransform(T.scale, T.ox + pr.left(), T.oy + pr.top())
             p.save()
             p.setClipRect(pr)
             p.fillRect(pr, QColor(PALETTE.paper))
-            if T is None:
-                T = ModelTransform.fit(bounds, pr.adjusted(0, 0, 0, -16), margin=24.0)
-            Tj = ModelTransform(T.scale, T.ox + (pr.left() - r.left()), T.oy + (pr.top() - r.top()))
             p.setPen(pen(PALETTE.mechanism, 0.7, Qt.DotLine))
             for nid in s.nodes:
                 pts = QPolygonF([Tj.map(*fr[nid]) for fr in shown if nid in fr])
@@ -921,9 +918,7 @@ class Report:
             paint_scheme(p, s, None, pr, positions=v.frames[i], transform=Tj, caption=False, caution=False,
                          show_mode=False, background=False, crossings=False)
             p.restore()
-            p.setPen(pen(RULE, 0.8))
-            p.setBrush(Qt.NoBrush)
-            p.drawRect(pr.adjusted(0.4, 0.4, -0.4, -0.4))
+            self._frame(p, pr)
             p.setFont(self.st.label)
             p.setPen(QColor(MUTED))
             p.drawText(QRectF(pr.left() + 4, pr.bottom() - 15, pr.width() - 8, 13),
