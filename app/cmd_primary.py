@@ -29,27 +29,46 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--save", metavar="OUT", help="write the released scheme (the primary structure) to OUT")
 
 
+def analyse(prog: str, path: str, work):
+    """Load ``path``, classify it and run ``work(scheme, classification)``.
+
+    Returns (scheme, classification, result), or None after printing one line on stderr
+    naming the file and the item and field at fault."""
+    from kinestat.core.classify import classify
+    from kinestat.core.io import SchemeError, load
+
+    try:
+        scheme = load(path)
+        c = classify(scheme)
+        return scheme, c, work(scheme, c)
+    except (SchemeError, ValueError) as exc:
+        print(f"{prog}: {Path(path).name}: {exc}", file=sys.stderr)
+        return None
+
+
+def save_scheme(prog: str, scheme, path: str) -> bool:
+    """Save atomically; False (after one line on stderr) when it cannot be written."""
+    from kinestat.core.io import save
+
+    try:
+        save(scheme, path)
+        return True
+    except OSError as exc:
+        print(f"{prog}: {path}: cannot be written ({exc.strerror or exc})", file=sys.stderr)
+        return False
+
+
 def run(args: argparse.Namespace) -> int:
     from kinestat.app.cmd_check import CAUTION
-    from kinestat.core.classify import classify
-    from kinestat.core.io import SchemeError, load, save
     from kinestat.core.primary import primary_structure
 
-    name = Path(args.file).name
-    try:
-        scheme = load(args.file)
-        c = classify(scheme)
-        res = primary_structure(scheme, c, preference=PREFER[args.prefer],
-                                max_alternatives=max(0, args.alternatives))
-    except (SchemeError, ValueError) as exc:
-        print(f"{_PROG}: {name}: {exc}", file=sys.stderr)
+    got = analyse(_PROG, args.file, lambda s, c: primary_structure(
+        s, c, preference=PREFER[args.prefer], max_alternatives=max(0, args.alternatives)))
+    if got is None:
         return 2
-    if args.save and res.primary is not None:
-        try:
-            save(res.primary.scheme, args.save)
-        except OSError as exc:
-            print(f"{_PROG}: {args.save}: cannot be written ({exc.strerror or exc})", file=sys.stderr)
-            return 2
+    _, c, res = got
+    if args.save and res.primary is not None and not save_scheme(_PROG, res.primary.scheme, args.save):
+        return 2
     out = {"file": args.file, "verdict": c.verdict,
            "releases": res.primary.to_json()["releases"] if res.primary else None,
            **res.to_json(), "caution": CAUTION}

@@ -11,8 +11,6 @@ from __future__ import annotations
 
 import argparse
 import json
-import sys
-from pathlib import Path
 
 _PROG = "kinestat remedies"
 
@@ -26,24 +24,16 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from kinestat.app.cmd_check import CAUTION
-    from kinestat.core.classify import classify
-    from kinestat.core.io import SchemeError, load, save
+    from kinestat.app.cmd_primary import analyse, save_scheme
     from kinestat.core.remedies import remedies
 
-    name = Path(args.file).name
-    try:
-        scheme = load(args.file)
-        c = classify(scheme)
-        res = remedies(scheme, c, max_remedies=max(0, args.max))
-    except (SchemeError, ValueError) as exc:
-        print(f"{_PROG}: {name}: {exc}", file=sys.stderr)
+    got = analyse(_PROG, args.file, lambda s, c: remedies(s, c, max_remedies=max(0, args.max)))
+    if got is None:
         return 2
-    if args.save_smallest and res.smallest_set is not None:
-        try:
-            save(res.smallest_set.scheme, args.save_smallest)
-        except OSError as exc:
-            print(f"{_PROG}: {args.save_smallest}: cannot be written ({exc.strerror or exc})", file=sys.stderr)
-            return 2
+    _, c, res = got
+    if args.save_smallest and res.smallest_set is not None and \
+            not save_scheme(_PROG, res.smallest_set.scheme, args.save_smallest):
+        return 2
     out = {"file": args.file, "verdict": c.verdict, **res.to_json(), "caution": CAUTION}
     if args.json:
         print(json.dumps(out, indent=1))
