@@ -669,8 +669,9 @@ class Report:
         self._p(verdict_words(ck))
         inner, sup = ck["internal"], ck["supports"]
         if sup["mechanisms"] < 0:
-            at_sup = (f"the supports also stop {-sup['mechanisms']} of those mechanism(s) and add "
-                      f"s = {sup['self_stress']}")
+            at_sup = f"the supports also stop {-sup['mechanisms']} of those mechanism(s)"
+            if sup["self_stress"]:
+                at_sup += f" and add s = {sup['self_stress']}"
         else:
             at_sup = f"at the supports: m = {sup['mechanisms']}, s = {sup['self_stress']}"
         self._p(f"Rank result: m = {ck['mechanisms']} mechanism(s), s = {ck['self_stress']} state(s) of "
@@ -1126,12 +1127,14 @@ class Report:
         if crit_s:
             self._p("Critical support restraints: " + ", ".join(crit_s) + ".")
         rows = []
-        for key in ("members", "restraints"):
+        # when every member is critical the member rows would only repeat that sentence
+        keys = ("restraints",) if crit and len(crit) == n else ("members", "restraints")
+        for key in keys:
             for item, rc in (removal.get(key) or {}).items():
                 if rc.get("status") == "critical":
                     rows.append([Cell(item, st.bold), rc.get("description", ""),
                                  Cell(f"{rc.get('mechanisms_after', '')}", st.mono, align=Qt.AlignRight), "",
-                                 _ids(rc.get("moving_nodes", []))])
+                                 _ids(rc.get("moving_nodes", []), 8)])
         if rows:
             self.flow.add_table(Table(st, cw, [("item", 1.2), ("what removing it does", 5.0),
                                                ("m after", 1.0, Qt.AlignRight), ("", 0.3),

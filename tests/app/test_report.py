@@ -88,6 +88,9 @@ def check_report_against_json(scheme, pdf: Path, info) -> tuple[list[str], str]:
     # the verdict in words and the rank result, as kinestat check --json says
     assert norm(ck["summary"]) in text
     assert f"m = {ck['mechanisms']} mechanism(s), s = {ck['self_stress']} state(s) of self-stress" in text
+    motion = ck.get("motion")
+    if motion and motion != "none":
+        assert f"Motion: {motion}" in text
     # the hand count term by term
     cnt = ck["count"]
     assert norm(cnt["formula"]) in text
