@@ -8,6 +8,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import assume, given, settings
+from hypothesis import strategies as st
 
 from kinestat.core.bodies import canonical_modes, collinearity, relative_centre, rigid_pieces
 from kinestat.core.classify import classify
@@ -256,3 +258,42 @@ def test_three_centres_of_any_three_bodies_are_collinear():
                             relative_centre(fields[i], fields[k], s.size())]
                     assert collinearity(trio) < 1e-9
     assert model.residual(model.q0) < 1e-15
+
+
+def test_crank_rocker_drawn_rotated_shifted_and_in_millimetres_turns_fully():
+    # the same Grashof crank-rocker (2, 7, 9, 6) in millimetres, turned by 37 deg and moved:
+    # the verdict and the full turn do not depend on units or placement (Grashof 1883)
+    base = four_bar(2, 7, 9, 6, 140.0)
+    ang = math.radians(37.0)
+    c, s_ = math.cos(ang), math.sin(ang)
+
+    def place(x, y):
+        return (1000 * (c * x - s_ * y) + 25_000.0, 1000 * (s_ * x + c * y) - 12_000.0)
+
+    s = Scheme({k: Node(k, *place(n.x, n.y)) for k, n in base.nodes.items()}, base.members, base.supports)
+    p = trace(s)
+    assert p.ended["forward"] == "full cycle" and p.frames[-1] == p.frames[0]
+    assert p.residual < 1e-9
+    for f in p.frames:
+        # back to the linkage's own frame, then Freudenstein's equation (Freudenstein 1955)
+        loc = {}
+        for k, (x, y) in f.items():
+            x, y = (x - 25_000.0) / 1000, (y + 12_000.0) / 1000
+            loc[k] = (c * x + s_ * y, -s_ * x + c * y)
+        th2, th4 = _angles(loc, 6)
+        assert abs(freudenstein_residual(2, 7, 9, 6, th2, th4)) < 1e-9
+
+
+@settings(max_examples=12, deadline=None)
+@given(st.floats(1.0, 3.0), st.floats(4.0, 9.0), st.floats(4.0, 9.0), st.floats(4.0, 9.0),
+       st.floats(0.0, 359.0), st.sampled_from([-1, 1]))
+def test_random_grashof_crank_rockers_turn_fully(a, b, c, d, th2, sign):
+    # Grashof 1883: crank a the shortest link and a + l < p + q -> the crank turns fully,
+    # every frame satisfies Freudenstein's equation (Freudenstein 1955)
+    lengths = sorted([a, b, c, d])
+    assume(a == lengths[0] and lengths[0] + lengths[3] < lengths[1] + lengths[2] - 0.3)
+    s = four_bar(a, b, c, d, th2, sign)
+    p = trace(s)
+    assert p.ended["forward"] == "full cycle"
+    assert p.frames[-1] == p.frames[0]
+    _check_frames(p, s, a, b, c, d)
