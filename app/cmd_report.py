@@ -8,7 +8,6 @@ written to a temporary file beside the target and renamed over it only when comp
 from __future__ import annotations
 
 import argparse
-import os
 import sys
 from pathlib import Path
 
@@ -28,15 +27,6 @@ def _fail(msg: str) -> int:
     return 2
 
 
-def ensure_gui_app():
-    """The running Q(Gui)Application, or a new QGuiApplication (offscreen with no display)."""
-    if sys.platform.startswith("linux") and not (os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY")):
-        os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-    from PySide6.QtGui import QGuiApplication
-
-    return QGuiApplication.instance() or QGuiApplication([sys.argv[0] if sys.argv else "kinestat"])
-
-
 def run(args: argparse.Namespace) -> int:
     from kinestat.core.io import SchemeError, load
 
@@ -48,10 +38,12 @@ def run(args: argparse.Namespace) -> int:
         return _fail(f"{src.name}: {exc}")
     if out.is_dir():
         return _fail(f"{out}: is a folder; give the PDF's file name with -o")
-    if not out.parent.is_dir() if str(out.parent) else False:
+    if not out.parent.is_dir():
         return _fail(f"{out}: folder {out.parent} does not exist")
     if out.resolve() == src.resolve():
         return _fail(f"{out}: the report would overwrite the scheme file")
+    from kinestat.app.cmd_render import ensure_gui_app
+
     app = ensure_gui_app()  # noqa: F841 - keeps the application alive while painting
     from kinestat.app.report import write_report
 

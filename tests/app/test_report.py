@@ -252,6 +252,12 @@ def test_content_hash_ignores_order_but_not_geometry():
 
 
 # ---------------------------------------------------------------------- the command
+def an_example(stem: str = "yard_gantry") -> Path:
+    """A bundled example by name (the first one if it is gone)."""
+    paths = example_paths()
+    return next((p for p in paths if p.stem == stem), paths[0])
+
+
 def run_cli(*args, env_extra=None):
     env = {k: v for k, v in os.environ.items() if k not in ("DISPLAY", "WAYLAND_DISPLAY", "QT_QPA_PLATFORM")}
     env.update(env_extra or {})
@@ -262,7 +268,7 @@ def run_cli(*args, env_extra=None):
 @needs_poppler
 def test_cli_writes_report_headless(tmp_path):
     src = tmp_path / "gantry.json"
-    shutil.copy(example_paths()[0], src)
+    shutil.copy(an_example(), src)
     out = tmp_path / "out" / "r.pdf"
     out.parent.mkdir()
     r = run_cli(src, "-o", out)
@@ -272,8 +278,23 @@ def test_cli_writes_report_headless(tmp_path):
     assert [p.name for p in out.parent.iterdir()] == ["r.pdf"]  # no temporary file left behind
 
 
+@needs_poppler
+def test_cli_default_output_and_no_extras(tmp_path):
+    src = tmp_path / "gantry.json"
+    shutil.copy(an_example(), src)
+    r = run_cli(src, "--no-extras")
+    assert r.returncode == 0, r.stderr
+    pdf = tmp_path / "gantry.pdf"
+    text = " ".join(pdf_pages(pdf))
+    ck = check_json(load(src), extras=False)
+    assert norm(ck["summary"]) in text and norm(ck["count"]["formula"]) in text
+    assert "Redundancy per member" not in text and "A primary structure" not in text
+    r = run_cli(src, "-o", tmp_path / "no_such_folder" / "r.pdf")
+    assert r.returncode == 2 and "does not exist" in r.stderr and len(r.stderr.strip().splitlines()) == 1
+
+
 def test_cli_bad_file_names_item_and_field_and_writes_nothing(tmp_path):
-    data = json.loads(example_paths()[0].read_text())
+    data = json.loads(an_example().read_text())
     data["members"][1]["end"] = "Z"
     bad = tmp_path / "bad.json"
     bad.write_text(json.dumps(data))
@@ -311,7 +332,7 @@ def test_write_failure_leaves_target_alone(qapp, tmp_path, monkeypatch):
 def test_saved_example_round_trip_keeps_hash(tmp_path):
     from kinestat.app.report import content_hash
 
-    s = load(example_paths()[0])
+    s = load(an_example())
     save(s, tmp_path / "again.json")
     assert content_hash(load(tmp_path / "again.json")) == content_hash(s)
 
@@ -329,7 +350,7 @@ def test_many_qt_calls_after_a_report_do_not_abort_the_interpreter(tmp_path):
         "app = QGuiApplication([])\n"
         "from kinestat.core.io import load\n"
         "from kinestat.app.report import write_report\n"
-        f"write_report(load({str(example_paths()[0])!r}), {str(tmp_path / 'r.pdf')!r})\n"
+        f"write_report(load({str(an_example())!r}), {str(tmp_path / 'r.pdf')!r})\n"
         "p = QPointF()\n"
         "for _ in range(200000):\n"
         "    p.setX(1.0)\n"
