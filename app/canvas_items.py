@@ -10,8 +10,9 @@ from __future__ import annotations
 import math
 
 from PySide6.QtCore import QPointF, QRectF, Qt
-from PySide6.QtGui import QColor, QPainterPath
-from PySide6.QtWidgets import QGraphicsItem
+from PySide6.QtGui import QColor, QPainterPath, QPen
+from PySide6.QtWidgets import (QGraphicsEllipseItem, QGraphicsItem, QGraphicsPathItem, QGraphicsRectItem,
+                               QGraphicsSimpleTextItem)
 
 from kinestat.core.model import arc_points
 
@@ -24,51 +25,58 @@ def to_scene(x: float, y: float) -> QPointF:
     return QPointF(x, -y)
 
 
-class MemberItem(QGraphicsItem):
+class MemberItem(QGraphicsPathItem):
+    """A member's centre line.  Painted by Qt itself (no Python per frame); a halo child
+    appears only while the member is selected or highlighted."""
+
     def __init__(self, member_id: str):
         super().__init__()
         self.member_id = member_id
         self.kind = "beam"
-        self.path = QPainterPath()
         self.selected = False
         self.highlighted = False
-        #: pixel padding in scene units (set by the scene from the zoom)
-        self.pad = 0.1
+        self._halo: QGraphicsPathItem | None = None
         self.setZValue(Z_MEMBER)
+        self.setAcceptedMouseButtons(Qt.NoButton)
+        self._style()
 
     def set_geometry(self, pa, pb, rise: float, kind: str) -> None:
-        self.prepareGeometryChange()
         pts = arc_points(pa, pb, rise) if rise else [pa, pb]
         path = QPainterPath(to_scene(*pts[0]))
         for p in pts[1:]:
             path.lineTo(to_scene(*p))
-        self.path = path
-        self.kind = kind
-        self.update()
+        self.setPath(path)
+        if self._halo is not None:
+            self._halo.setPath(path)
+        if kind != self.kind:
+            self.kind = kind
+            self._style()
+
+    def set_state(self, selected: bool | None = None, highlighted: bool | None = None) -> None:
+        if selected is not None:
+            self.selected = selected
+        if highlighted is not None:
+            self.highlighted = highlighted
+        self._style()
+
+    def _style(self) -> None:
+        pal = dr.PALETTE
+        beam = self.kind == "beam"
+        colour = pal.selection if self.selected else (pal.ink if beam else pal.bar_ink)
+        self.setPen(dr.pen(colour, dr.BEAM_W if beam else dr.BAR_W))
+        if self.selected or self.highlighted:
+            if self._halo is None:
+                self._halo = QGraphicsPathItem(self.path(), self)
+                self._halo.setFlag(QGraphicsItem.ItemStacksBehindParent, True)
+            self._halo.setPen(dr.pen(pal.warning, 9.0) if self.highlighted else dr.pen(pal.hover, 6.0, alpha=90))
+        elif self._halo is not None:
+            self._halo.setParentItem(None)
+            if self.scene() is not None:
+                self.scene().removeItem(self._halo)
+            self._halo = None
 
     def set_pad(self, pad: float) -> None:
-        self.prepareGeometryChange()
-        self.pad = pad
-
-    def boundingRect(self) -> QRectF:  # noqa: N802 - Qt's name
-        r = self.path.boundingRect()
-        return r.adjusted(-self.pad, -self.pad, self.pad, self.pad)
-
-    def paint(self, painter, option, widget=None) -> None:
-        pal = dr.PALETTE
-        if self.highlighted:
-            painter.setPen(dr.pen(pal.warning, 9.0))
-            painter.drawPath(self.path)
-        if self.selected:
-            halo = dr.pen(pal.hover, 6.0)
-            c = halo.color()
-            c.setAlpha(90)
-            halo.setColor(c)
-            painter.setPen(halo)
-            painter.drawPath(self.path)
-        colour = pal.selection if self.selected else (pal.ink if self.kind == "beam" else pal.bar_ink)
-        painter.setPen(dr.pen(colour, dr.BEAM_W if self.kind == "beam" else dr.BAR_W))
-        painter.drawPath(self.path)
+        """Kept for the scene's zoom bookkeeping (Qt pads a path item's bounds itself)."""
 
 
 class _PixelItem(QGraphicsItem):
@@ -79,6 +87,7 @@ class _PixelItem(QGraphicsItem):
     def __init__(self):
         super().__init__()
         self.setFlag(QGraphicsItem.ItemIgnoresTransformations, True)
+        self.setAcceptedMouseButtons(Qt.NoButton)
         self.selected = False
         self.highlighted = False
 
@@ -86,37 +95,88 @@ class _PixelItem(QGraphicsItem):
         e = self.extent
         return QRectF(-e, -e, 2 * e, 2 * e)
 
+    def set_state(self, selected: bool | None = None, highlighted: bool | None = None) -> None:
+        if selected is not None:
+            self.selected = selected
+        if highlighted is not None:
+            self.highlighted = highlighted
+        self.update()
 
-class NodeItem(_PixelItem):
-    extent = 11.0
+
+def _glyph_path(glyph: str) -> QPainterPath:
+    path = QPainterPath()
+    if glyph == "free":
+        path.addRect(QRectF(-3.5, -3.5, 7, 7))
+    else:
+        r = {"hinge": dr.HINGE_R, "pin": dr.PIN_R}.get(glyph, dr.NODE_R)
+        path.addEllipse(QPointF(0, 0), r, r)
+    return path
+
+
+class NodeItem(QGraphicsPathItem):
+    """A joint symbol in pixels (dot, ring, hinge ring, open square), painted by Qt itself."""
 
     def __init__(self, node_id: str):
         super().__init__()
         self.node_id = node_id
-        self.glyph = "rigid"
+        self.glyph = ""
         self.label: str | None = None
+        self.selected = False
+        self.highlighted = False
+        self._ring: QGraphicsRectItem | None = None
+        self._spot: QGraphicsEllipseItem | None = None
+        self._text: QGraphicsSimpleTextItem | None = None
+        self.setFlag(QGraphicsItem.ItemIgnoresTransformations, True)
+        self.setAcceptedMouseButtons(Qt.NoButton)
         self.setZValue(Z_NODE)
+        self.set_glyph("rigid", None)
 
-    def boundingRect(self) -> QRectF:  # noqa: N802
-        r = super().boundingRect()
-        if self.label:
-            r = r.united(QRectF(4, -22, 9 * len(self.label) + 8, 18))
-        return r
+    def set_glyph(self, glyph: str, label: str | None) -> None:
+        if glyph != self.glyph:
+            self.glyph = glyph
+            self.setPath(_glyph_path(glyph))
+            self._style()
+        if label != self.label:
+            self.label = label
+            if label and self._text is None:
+                self._text = QGraphicsSimpleTextItem(self)
+                self._text.setBrush(QColor(dr.PALETTE.muted))
+                self._text.setPos(6, -20)
+            if self._text is not None:
+                self._text.setText(label or "")
+                self._text.setVisible(bool(label))
 
-    def paint(self, painter, option, widget=None) -> None:
+    def set_state(self, selected: bool | None = None, highlighted: bool | None = None) -> None:
+        if selected is not None:
+            self.selected = selected
+        if highlighted is not None:
+            self.highlighted = highlighted
+        self._style()
+
+    def _style(self) -> None:
         pal = dr.PALETTE
-        if self.highlighted:
-            painter.setPen(Qt.NoPen)
-            painter.setBrush(QColor(pal.warning))
-            painter.drawEllipse(QPointF(0, 0), 9, 9)
-        if self.selected:
-            painter.setPen(dr.pen(pal.selection, 1.6))
-            painter.setBrush(Qt.NoBrush)
-            painter.drawRect(QRectF(-7, -7, 14, 14))
-        dr.draw_node(painter, self.glyph, pal, pal.selection if self.selected else None)
-        if self.label:
-            painter.setPen(dr.pen(pal.muted))
-            painter.drawText(QPointF(7, -7), self.label)
+        ink = pal.selection if self.selected else pal.ink
+        if self.glyph == "rigid":
+            self.setPen(QPen(Qt.NoPen))
+            self.setBrush(QColor(ink))
+        elif self.glyph == "free":
+            self.setPen(dr.pen(pal.selection if self.selected else pal.free_node, 1.5))
+            self.setBrush(Qt.NoBrush)
+        else:
+            self.setPen(dr.pen(ink, 1.5 if self.glyph == "hinge" else 1.3))
+            self.setBrush(QColor(pal.paper))
+        if self.selected and self._ring is None:
+            self._ring = QGraphicsRectItem(QRectF(-7, -7, 14, 14), self)
+            self._ring.setPen(dr.pen(pal.selection, 1.6))
+        if self._ring is not None:
+            self._ring.setVisible(self.selected)
+        if self.highlighted and self._spot is None:
+            self._spot = QGraphicsEllipseItem(QRectF(-9, -9, 18, 18), self)
+            self._spot.setFlag(QGraphicsItem.ItemStacksBehindParent, True)
+            self._spot.setPen(QPen(Qt.NoPen))
+            self._spot.setBrush(QColor(pal.warning))
+        if self._spot is not None:
+            self._spot.setVisible(self.highlighted)
 
 
 class SupportItem(_PixelItem):

@@ -6,8 +6,6 @@ hops; the first mechanism shape and warning highlights are overlays set from out
 """
 from __future__ import annotations
 
-import math
-
 from PySide6.QtCore import QPointF, QRectF, QTimer
 from PySide6.QtWidgets import QGraphicsScene
 
@@ -25,6 +23,8 @@ def to_model(p: QPointF) -> tuple[float, float]:
 class CanvasScene(QGraphicsScene):
     def __init__(self, doc, parent=None):
         super().__init__(parent if parent is not None else doc)
+        # items move all the time (drags) and picking is done on the model: no BSP index
+        self.setItemIndexMethod(QGraphicsScene.NoIndex)
         self.doc = doc
         self.node_items: dict[str, NodeItem] = {}
         self.member_items: dict[str, MemberItem] = {}
@@ -108,11 +108,10 @@ class CanvasScene(QGraphicsScene):
             return
         if it is None:
             it = MemberItem(mid)
-            it.pad = 6 * self.units_per_px
             self.member_items[mid] = it
             self.addItem(it)
-            it.selected = mid in self.doc.selected_members
-            it.highlighted = mid in self.highlighted
+            if mid in self.doc.selected_members or mid in self.highlighted:
+                it.set_state(mid in self.doc.selected_members, mid in self.highlighted)
         pa, pb = s.node_xy(m.start), s.node_xy(m.end)
         it.set_geometry(pa, pb, m.rise, m.kind)
         pts = arc_points(pa, pb, m.rise, 8) if m.rise else [pa, pb]
@@ -143,17 +142,13 @@ class CanvasScene(QGraphicsScene):
             it = NodeItem(nid)
             self.node_items[nid] = it
             self.addItem(it)
-            it.selected = nid in self.doc.selected_nodes
-            it.highlighted = nid in self.highlighted
+            if nid in self.doc.selected_nodes or nid in self.highlighted:
+                it.set_state(nid in self.doc.selected_nodes, nid in self.highlighted)
         glyph = "hinge" if n.hinge else None
         if glyph is None:
             kinds = {s.members[mid].kind for mid in self._at_node.get(nid, ()) if mid in s.members}
             glyph = "free" if not kinds else ("pin" if kinds == {"bar"} else "rigid")
-        label = nid if self.show_ids else None
-        if glyph != it.glyph or label != it.label:
-            it.prepareGeometryChange()
-            it.glyph, it.label = glyph, label
-            it.update()
+        it.set_glyph(glyph, nid if self.show_ids else None)
         it.setPos(to_scene(n.x, n.y))
 
     def _update_support(self, nid: str) -> None:
@@ -188,31 +183,21 @@ class CanvasScene(QGraphicsScene):
     # ------------------------------------------------------------------ state from outside
     def _on_selection_changed(self) -> None:
         sn, sm = self.doc.selected_nodes, self.doc.selected_members
-        for nid, it in self.node_items.items():
-            if it.selected != (nid in sn):
-                it.selected = nid in sn
-                it.update()
-        for nid, it in self.support_items.items():
-            if it.selected != (nid in sn):
-                it.selected = nid in sn
-                it.update()
-        for mid, it in self.member_items.items():
-            if it.selected != (mid in sm):
-                it.selected = mid in sm
-                it.update()
+        for items, chosen in ((self.node_items, sn), (self.support_items, sn), (self.member_items, sm)):
+            for key, it in items.items():
+                if it.selected != (key in chosen):
+                    it.set_state(selected=key in chosen)
         for (mid, _), it in self.release_items.items():
-            it.selected = mid in sm
-            it.update()
+            if it.selected != (mid in sm):
+                it.set_state(selected=mid in sm)
 
     def set_highlight(self, ids) -> None:
         """Highlight nodes and members by id (warnings); empty to clear."""
-        self.highlighted = set(ids)
-        for nid, it in self.node_items.items():
-            it.highlighted = nid in self.highlighted
-            it.update()
-        for mid, it in self.member_items.items():
-            it.highlighted = mid in self.highlighted
-            it.update()
+        old, self.highlighted = self.highlighted, set(ids)
+        for key in old ^ self.highlighted:
+            it = self.node_items.get(key) or self.member_items.get(key)
+            if it is not None:
+                it.set_state(highlighted=key in self.highlighted)
 
     def set_show_ids(self, on: bool) -> None:
         self.show_ids = on
@@ -253,5 +238,3 @@ class CanvasScene(QGraphicsScene):
         x0, y0, x1, y1 = dr.scheme_bounds(s)
         return QRectF(QPointF(x0, -y1), QPointF(x1, -y0))
 
-
-_ = math

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 
-from PySide6.QtCore import QPointF, QRectF, Qt, Signal
+from PySide6.QtCore import QLineF, QPointF, QRectF, Qt, Signal
 from PySide6.QtGui import QColor, QFont, QPainter
 from PySide6.QtWidgets import QFrame, QGraphicsView
 
@@ -41,6 +41,7 @@ class CanvasView(QGraphicsView):
         self.setRenderHint(QPainter.Antialiasing, True)
         self.setRenderHint(QPainter.TextAntialiasing, True)
         self.setViewportUpdateMode(QGraphicsView.FullViewportUpdate)
+        self.setCacheMode(QGraphicsView.CacheBackground)
         self.setTransformationAnchor(QGraphicsView.AnchorUnderMouse)
         self.setResizeAnchor(QGraphicsView.AnchorViewCenter)
         self.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
@@ -215,21 +216,16 @@ class CanvasView(QGraphicsView):
             step *= 5
         major = step * 5
         painter.save()
+        painter.setRenderHint(QPainter.Antialiasing, False)
         for spacing, colour in ((step, pal.grid_minor), (major, pal.grid_major)):
             if spacing * s < 7:
                 continue
             painter.setPen(dr.pen(colour, 1.0))
-            x = math.floor(rect.left() / spacing) * spacing
-            lines = []
-            while x <= rect.right():
-                lines.append((x, rect.top(), x, rect.bottom()))
-                x += spacing
-            y = math.floor(rect.top() / spacing) * spacing
-            while y <= rect.bottom():
-                lines.append((rect.left(), y, rect.right(), y))
-                y += spacing
-            for x0, y0, x1, y1 in lines:
-                painter.drawLine(QPointF(x0, y0), QPointF(x1, y1))
+            k0, k1 = math.floor(rect.left() / spacing), math.ceil(rect.right() / spacing)
+            lines = [QLineF(k * spacing, rect.top(), k * spacing, rect.bottom()) for k in range(k0, k1 + 1)]
+            k0, k1 = math.floor(rect.top() / spacing), math.ceil(rect.bottom() / spacing)
+            lines += [QLineF(rect.left(), k * spacing, rect.right(), k * spacing) for k in range(k0, k1 + 1)]
+            painter.drawLines(lines)
         painter.setPen(dr.pen(pal.axis, 1.2))
         if rect.top() <= 0 <= rect.bottom():
             painter.drawLine(QPointF(rect.left(), 0), QPointF(rect.right(), 0))

@@ -20,6 +20,10 @@ from PySide6.QtGui import QUndoCommand, QUndoStack
 
 from kinestat.core.model import Member, Node, Scheme, Support
 
+from .qt_compat import keep_none_alive
+
+keep_none_alive()
+
 _GESTURES = itertools.count(1)
 
 

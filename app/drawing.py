@@ -17,12 +17,17 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Iterable, Mapping
 
 from PySide6.QtCore import QLineF, QPointF, QRectF, Qt
 from PySide6.QtGui import QBrush, QColor, QFont, QPainter, QPainterPath, QPen, QPolygonF
 
 from kinestat.core.model import Scheme, arc_points
+
+from .qt_compat import keep_none_alive
+
+keep_none_alive()
 
 CAUTION = ("Concept-stage check only, not structural design: local codes and a licensed "
            "engineer govern.")
@@ -60,10 +65,19 @@ BEAM_W = 2.2
 BAR_W = 1.3
 
 
-def pen(colour: str, width: float = 1.0, style=Qt.SolidLine, cosmetic: bool = True) -> QPen:
-    p = QPen(QColor(colour), width, style, Qt.RoundCap, Qt.RoundJoin)
+@lru_cache(maxsize=512)
+def _pen(colour: str, width: float, style, cosmetic: bool, alpha: int) -> QPen:
+    c = QColor(colour)
+    if alpha < 255:
+        c.setAlpha(alpha)
+    p = QPen(c, width, style, Qt.RoundCap, Qt.RoundJoin)
     p.setCosmetic(cosmetic)
     return p
+
+
+def pen(colour: str, width: float = 1.0, style=Qt.SolidLine, cosmetic: bool = True, alpha: int = 255) -> QPen:
+    """A round-capped pen (cosmetic by default: width in device pixels); a fresh copy of a cached one."""
+    return QPen(_pen(colour, float(width), style, cosmetic, alpha))
 
 
 def verdict_colour(verdict: str | None, pal: Palette = PALETTE) -> str:
@@ -362,9 +376,7 @@ def paint_scheme(painter: QPainter, scheme: Scheme, classification=None, rect: Q
 
     # highlight halos under everything
     if hl:
-        halo = pen(pal.warning, 9.0)
-        halo.setColor(QColor(pal.warning).lighter(115))
-        painter.setPen(halo)
+        painter.setPen(pen(QColor(pal.warning).lighter(115).name(), 9.0))
         for m in scheme.members.values():
             if m.id in hl:
                 painter.drawPolyline(poly(_member_polyline(scheme, m, xy)))

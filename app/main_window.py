@@ -251,6 +251,7 @@ class MainWindow(QMainWindow):
 
     def _set_grid(self, on: bool) -> None:
         self.view.grid_on = on
+        self.view.resetCachedContent()
         self.view.viewport().update()
 
     def _set_snap(self, on: bool) -> None:
@@ -258,6 +259,7 @@ class MainWindow(QMainWindow):
 
     def _set_grid_spacing(self, v: float) -> None:
         self.view.grid = v
+        self.view.resetCachedContent()
         self.view.viewport().update()
 
     def select_all(self) -> None:

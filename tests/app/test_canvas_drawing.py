@@ -98,7 +98,7 @@ def test_members_follow_a_dragged_node_and_verdict_updates_live(qtbot, win):
     end = doc.scheme.node_xy(m.end)
     assert end == (3.0, 2.0)
     item = win.scene.member_items[m.id]
-    r = item.path.boundingRect()
+    r = item.path().boundingRect()
     assert r.right() == pytest.approx(3.0) and r.top() == pytest.approx(-2.0)  # scene y is model -y
     assert win.runner.result_revision == doc.revision
 
