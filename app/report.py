@@ -655,18 +655,24 @@ class Report:
     def _verdict_section(self):
         ck, st = self.f.check, self.st
         self._h("Verdict")
-        colour = verdict_colour(ck["verdict"])
+        empty = not self.f.scheme.members
+        verdict = None if empty else ck["verdict"]
+        colour = verdict_colour(verdict)
         vh = st.metrics(st.verdict).height() + 6
 
-        def banner(p, r, ck=ck):
-            draw_verdict_marker(p, ck["verdict"], QPointF(r.left() + 9, r.center().y()), 7.0)
+        def banner(p, r):
+            draw_verdict_marker(p, verdict, QPointF(r.left() + 9, r.center().y()), 7.0)
             p.setFont(st.verdict)
             p.setPen(QColor(colour))
             p.drawText(QRectF(r.left() + 24, r.top(), r.width() - 24, r.height()), int(Qt.AlignLeft | Qt.AlignVCenter),
-                       ck["summary"])
+                       "No members to check" if empty else ck["summary"])
 
         self.flow.add(Figure(vh, banner, gap=4))
-        self._p(verdict_words(ck))
+        if empty:
+            self._p(f"The scheme has no members, so there is nothing to classify (the rank test on an empty "
+                    f"system reads: {ck['summary']}).")
+        else:
+            self._p(verdict_words(ck))
         inner, sup = ck["internal"], ck["supports"]
         if sup["mechanisms"] < 0:
             at_sup = f"the supports also stop {-sup['mechanisms']} of those mechanism(s)"

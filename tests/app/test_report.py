@@ -357,3 +357,32 @@ def test_many_qt_calls_after_a_report_do_not_abort_the_interpreter(tmp_path):
         "print('alive')\n")
     r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
     assert r.returncode == 0 and r.stdout.strip() == "alive", r.stderr[-500:]
+
+
+@needs_poppler
+def test_reports_of_what_a_user_can_draw_never_fail(qapp, tmp_path):
+    from kinestat.core.model import Node, Scheme
+
+    from catalogue import build
+
+    cases = {
+        # nothing drawn yet: the report says so instead of a verdict
+        "empty": Scheme(),
+        # a beam with no support: 3 rigid-body mechanisms (a free body in the plane, common knowledge)
+        "free": build({"A": (0, 0), "B": (4, 0)}, [("c1", "A", "B", "beam")]),
+        # ids and title outside ASCII come through the PDF text unchanged
+        "unicode": build({"Ä": (0, 0), "ß": (4, 0)}, [("träger", "Ä", "ß", "beam")], [("Ä", "fixed")])
+        .retitled("Brücke – 桥"),
+        "nodes": Scheme({"A": Node("A", 0, 0)}),
+    }
+    for name, s in cases.items():
+        pdf = tmp_path / f"{name}.pdf"
+        info = write(qapp, s, pdf)
+        text = " ".join(pdf_pages(pdf))
+        assert int(pdf_info(pdf)["Pages"]) == info.pages
+        if not s.members:
+            assert "No members to check" in text
+        else:
+            check_report_against_json(s, pdf, info)
+    assert "Unstable — 3 mechanisms" in " ".join(pdf_pages(tmp_path / "free.pdf"))
+    assert "Brücke – 桥" in " ".join(pdf_pages(tmp_path / "unicode.pdf"))
