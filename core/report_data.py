@@ -16,6 +16,16 @@ def check_json(scheme: Scheme, extras: bool = True, result: Classification | Non
     """Classify ``scheme`` and return the verdict as a JSON-ready dict."""
     c = result if result is not None else classify(scheme)
     out = c.to_json()
+    # "motion": "none" | "finite" | "infinitesimal" (second-order test, confirmed by tracing)
+    if c.mechanisms == 0:
+        out["motion"] = "none"
+    elif extras:
+        from .secondorder import assess
+
+        v = assess(scheme)
+        # the node model's mechanism that the exact constraints do not see is infinitesimal
+        out["motion"] = v.motion if v.motion != "none" else "infinitesimal"
+        out["motion_detail"] = v.to_json()
     if extras:
         # redundancy distribution, critical members and restraints, states of self-stress
         from .redundancy import redundancy_report
