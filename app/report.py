@@ -44,7 +44,7 @@ from PySide6.QtGui import (QBrush, QColor, QFont, QFontMetricsF, QPageLayout, QP
                            QPdfWriter, QPen, QPolygonF)
 
 from kinestat.core.io import scheme_to_dict
-from kinestat.core.model import Scheme
+from kinestat.core.model import Scheme, arc_points
 
 from .drawing import (CAUTION, PALETTE, ModelTransform, draw_verdict_marker, paint_scheme, pen,
                       scheme_bounds, verdict_colour)
@@ -243,7 +243,8 @@ def _motion_views(scheme: Scheme, c) -> tuple[list[MotionView], str]:
             views = []
             note = f"positions could not be traced ({type(exc).__name__}: {exc}); first-order shapes shown"
         else:
-            note = "the exact constraints show no finite motion; first-order shapes shown"
+            note = ("the exact constraints show no mechanism (a near-singular geometry); the rank test's "
+                    "first-order shapes are shown")
     else:
         note = f"more than {MOTION_MAX_MEMBERS} members: positions not traced; first-order shapes shown"
     amp = 0.1 * scheme.size()
@@ -685,10 +686,11 @@ class Report:
                 f"m = {inner['mechanisms']}, s = {inner['self_stress']}; {at_sup}.")
         motion = ck.get("motion")
         if motion and motion != "none":
-            self._p(f"Motion: {motion}" + (" (the mechanism moves through finite positions)." if motion == "finite"
-                                           else " (the scheme moves only to first order and locks at a "
-                                                "higher order; still unfit to carry load)."
-                                           if motion == "infinitesimal" else "."))
+            words = {"finite": " (the mechanism moves through finite positions).",
+                     "infinitesimal": " (the scheme moves only to first order and locks at a higher order; "
+                                      "it is still unfit to carry load: large deflections and forces)."}
+            reason = (ck.get("motion_detail") or {}).get("reason")
+            self._p(f"Motion: {motion}" + words.get(motion, ".") + (f" Why: {reason}." if reason else ""))
         crit = ck.get("critical") or []
         if crit and len(crit) < len(self.f.scheme.members):
             self._p("Critical members (removing one adds a mechanism): " + _ids(crit, 20) + ".")
@@ -832,16 +834,22 @@ class Report:
         if f.motion_note:
             self._p(f.motion_note, st.small, MUTED)
 
-    def _frame_bounds(self, frames: list[dict], extra=()) -> tuple[float, float, float, float]:
+    def _frame_bounds(self, frames: list[dict]) -> tuple[float, float, float, float]:
+        """Bounds of the scheme over several positions."""
         xs, ys = [], []
         for fr in frames:
             x0, y0, x1, y1 = scheme_bounds(self.f.scheme, fr)
             xs += [x0, x1]
             ys += [y0, y1]
-        for x, y in extra:
-            xs.append(x)
-            ys.append(y)
         return (min(xs), min(ys), max(xs), max(ys))
+
+    def _member_line(self, T: ModelTransform, mid: str) -> QPolygonF:
+        """A member of the drawn scheme in device coordinates (an arc for a curved member)."""
+        s = self.f.scheme
+        m = s.members[mid]
+        pts = arc_points(s.node_xy(m.start), s.node_xy(m.end), m.rise) if m.rise else \
+            [s.node_xy(m.start), s.node_xy(m.end)]
+        return QPolygonF([T.map(x, y) for x, y in pts])
 
     def _paint_bodies(self, p: QPainter, r: QRectF, v: MotionView) -> None:
         s = self.f.scheme
@@ -860,8 +868,7 @@ class Report:
             pn.setCosmetic(True)
             p.setPen(pn)
             for mid in b.members:
-                m = s.members[mid]
-                p.drawLine(T.map(*s.node_xy(m.start)), T.map(*s.node_xy(m.end)))
+                p.drawPolyline(self._member_line(T, mid))
         if v.fixed_members:
             grey = QColor(MUTED)
             grey.setAlphaF(0.25)
@@ -869,8 +876,7 @@ class Report:
             pn.setCosmetic(True)
             p.setPen(pn)
             for mid in v.fixed_members:
-                m = s.members[mid]
-                p.drawLine(T.map(*s.node_xy(m.start)), T.map(*s.node_xy(m.end)))
+                p.drawPolyline(self._member_line(T, mid))
         paint_scheme(p, s, None, r, transform=T, caption=False, caution=False, show_ids=True,
                      show_mode=False, background=False)
         # body labels and instant centres
