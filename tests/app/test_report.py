@@ -386,3 +386,19 @@ def test_reports_of_what_a_user_can_draw_never_fail(qapp, tmp_path):
             check_report_against_json(s, pdf, info)
     assert "Unstable — 3 mechanisms" in " ".join(pdf_pages(tmp_path / "free.pdf"))
     assert "Brücke – 桥" in " ".join(pdf_pages(tmp_path / "unicode.pdf"))
+
+
+@needs_poppler
+def test_curved_ribs_on_a_roller_instant_centre(qapp, tmp_path):
+    from catalogue import build
+
+    # two curved ribs hinged at C(4, 3), pinned at A(0, 0), on a roller at B(8, 0) with a vertical
+    # reaction: rib AC turns about A; rib CB's centre lies on line AC through the hinge and on the
+    # normal to the roller's path at B (Aronhold-Kennedy): y = 0.75 x meets x = 8 at (8, 6)
+    s = build({"A": (0, 0), "C": (4, 3), "B": (8, 0)},
+              [("r1", "A", "C", "beam", (), (), 1.0), ("r2", "C", "B", "beam", (), (), -1.0)],
+              [("A", "pin"), ("B", "roller")], hinges=("C",))
+    pdf = tmp_path / "ribs.pdf"
+    info = write(qapp, s, pdf)
+    _, text = check_report_against_json(s, pdf, info)
+    assert "I1 at (0, 0) m" in text and "I2 at (8, 6) m" in text
