@@ -48,6 +48,7 @@ from kinestat.core.model import Scheme, arc_points
 
 from .drawing import (CAUTION, PALETTE, ModelTransform, draw_verdict_marker, paint_scheme, pen,
                       scheme_bounds, verdict_colour)
+from .qt_compat import keep_none_alive
 
 #: page resolution: drawing-code pixels are 96 dpi pixels
 DPI = 96
@@ -77,39 +78,6 @@ STRIP_PANEL_H = 165.0
 #: the strip shows a direction of motion until a node has travelled this many scheme sizes
 STRIP_TRAVEL = 0.6
 BODY_COLOURS = ("#0072b2", "#009e73", "#cc79a7", "#e69f00", "#56b4e9", "#000000", "#8a6d3b")
-
-
-# ---------------------------------------------------------------------- interpreter guard
-def shield_none_refcount(margin: int = 1 << 40) -> bool:
-    """Keep ``None`` alive under a Qt binding that returns it without taking a reference.
-
-    With PySide6/shiboken6 6.12 on CPython 3.11 every call of a method that returns nothing
-    (``QPainter.drawLine``, ``setPen``...) drops one reference to ``None``; a report makes
-    thousands of such calls and once the count reaches zero the interpreter aborts
-    ("none_dealloc").  CPython 3.12 and later make ``None`` immortal (PEP 683), so there is
-    nothing to do there.  When a probe shows the leak, ``margin`` references are added to
-    ``None`` once (its count lives in the first word of the object in a CPython release
-    build; checked against ``sys.getrefcount`` before writing).  Returns True when it did so.
-    """
-    import sys
-
-    if sys.implementation.name != "cpython" or sys.version_info >= (3, 12):
-        return False
-    import ctypes
-
-    cell = ctypes.c_ssize_t.from_address(id(None))
-    if cell.value >= margin // 2:
-        return False  # already shielded
-    probe = QPointF()
-    before = sys.getrefcount(None)
-    for _ in range(16):
-        probe.setX(0.0)
-    if before - sys.getrefcount(None) < 16:
-        return False  # the binding keeps its references: no leak
-    if abs(cell.value - (sys.getrefcount(None) - 1)) > 4:
-        return False  # not the expected object layout: leave the interpreter alone
-    cell.value += margin
-    return True
 
 
 # ---------------------------------------------------------------------- content hash
@@ -1399,7 +1367,7 @@ def write_report(scheme: Scheme, path, source_name: str | None = None, *, classi
 
     if QGuiApplication.instance() is None:
         raise RuntimeError("write_report needs a QGuiApplication (kinestat report makes one)")
-    shield_none_refcount()
+    keep_none_alive()  # PySide6 6.12 on CPython 3.11: see qt_compat
     target = Path(path)
     facts = gather(scheme, source_name, classification=classification, when=when, extras=extras)
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".pdf", dir=str(target.parent or "."))

@@ -339,7 +339,7 @@ def test_saved_example_round_trip_keeps_hash(tmp_path):
 
 def test_many_qt_calls_after_a_report_do_not_abort_the_interpreter(tmp_path):
     # PySide6 6.12 on CPython 3.11 drops a reference to None on every call of a method that
-    # returns nothing; without the shield 200 000 such calls exhaust None's count and the
+    # returns nothing; without app.qt_compat's reserve 200 000 such calls exhaust None's count and the
     # interpreter aborts with "none_dealloc" (CPython's own check; PEP 683 makes None immortal
     # from 3.12 on, where this passes trivially)
     code = (
