@@ -235,6 +235,6 @@ class CanvasScene(QGraphicsScene):
         s = self.doc.scheme
         if not s.nodes:
             return QRectF(-1, -6, 12, 8)
-        x0, y0, x1, y1 = dr.scheme_bounds(s)
+        x0, y0, x1, y1 = dr.scheme_bounds(s, extra=self.mode_item.displaced.values())
         return QRectF(QPointF(x0, -y1), QPointF(x1, -y0))
 

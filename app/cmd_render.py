@@ -52,7 +52,7 @@ def run(args: argparse.Namespace) -> int:
         from kinestat.core.classify import classify
 
         c = classify(scheme)
-    _app = ensure_gui_app()  # noqa: F841 - keeps the application alive while painting
+    app = ensure_gui_app()  # the application must live while painting
     from . import drawing as dr
 
     out = Path(args.output)
@@ -67,4 +67,5 @@ def run(args: argparse.Namespace) -> int:
         return 2
     words = c.summary() if c is not None else "no members"
     print(f"{out}: {words}")
+    del app
     return 0

@@ -172,6 +172,21 @@ def merge_nodes(scheme: Scheme, keep: str, drop: str) -> Scheme:
     return replace(scheme, nodes=nodes, members=members, supports=supports)
 
 
+def join_coincident(scheme: Scheme, node_ids: Iterable[str]) -> Scheme:
+    """Merge each of ``node_ids`` into another node at the same place, if there is one
+    (a member never ends up with both ends at one point)."""
+    for nid in list(node_ids):
+        if nid not in scheme.nodes:
+            continue
+        x, y = scheme.node_xy(nid)
+        tol = node_tolerance(scheme) * 10
+        other = next((n.id for n in scheme.nodes.values()
+                      if n.id != nid and abs(n.x - x) <= tol and abs(n.y - y) <= tol), None)
+        if other is not None:
+            scheme = merge_nodes(scheme, keep=other, drop=nid)
+    return scheme
+
+
 def delete(scheme: Scheme, node_ids: Iterable[str] = (), member_ids: Iterable[str] = ()) -> Scheme:
     """Delete members and nodes (with their members and supports); nodes left with nothing go too."""
     node_ids, member_ids = set(node_ids), set(member_ids)

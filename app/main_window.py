@@ -5,7 +5,7 @@ from pathlib import Path
 
 from PySide6.QtCore import QSettings, Qt, QTimer
 from PySide6.QtGui import QAction, QActionGroup, QKeySequence
-from PySide6.QtWidgets import (QApplication, QCheckBox, QDialog, QDockWidget, QDoubleSpinBox, QFileDialog, QLabel,
+from PySide6.QtWidgets import (QApplication, QDialog, QDockWidget, QDoubleSpinBox, QFileDialog, QLabel,
                                QMainWindow, QMessageBox, QToolBar, QUndoView, QWidget, QSizePolicy)
 
 from kinestat.core.io import SchemeError, dumps, load
@@ -511,5 +511,3 @@ class MainWindow(QMainWindow):
 def app_instance() -> QApplication:
     return QApplication.instance() or QApplication([])
 
-
-_ = QCheckBox

@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import math
 
-from PySide6.QtCore import Qt
 from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QFormLayout, QGridLayout, QLabel, QLineEdit,
                                QPushButton, QStackedWidget, QVBoxLayout, QWidget)
 
@@ -212,7 +211,8 @@ class PropertiesPanel(QWidget):
             return
         nid = self._one_node()
         if nid:
-            self.doc.move_nodes({nid: (self.node_x.value(), self.node_y.value())})
+            moved = self.doc.scheme.moved({nid: (self.node_x.value(), self.node_y.value())})
+            self.doc.commit("Move node", edits.join_coincident(moved, [nid]))
 
     def _on_hinge(self, on: bool) -> None:
         if self._updating:
@@ -267,5 +267,3 @@ class PropertiesPanel(QWidget):
             s = edits.set_member_kind(s, mid, kind)
         self.doc.commit(f"Members {kind}", s)
 
-
-_ = Qt

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from PySide6.QtCore import QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QPolygonF
 
-from kinestat.core.model import Support
+from kinestat.core.model import Scheme, Support
 
 from . import drawing as dr
 from . import edits
@@ -65,9 +65,12 @@ class ToolContext:
         v = self.view
         idx = index or self.index()
         if not v.snap_on:
+            # nodes and members do not attract; the grid still does while it is shown
             grid = v.grid if v.grid_on else None
             if ortho and anchor is not None:
-                return idx.snap(x, y, 0.0, grid=None, anchor=anchor, ortho=True)
+                return SnapIndex(Scheme()).snap(x, y, 0.0, grid=grid, anchor=anchor, ortho=True)
+            if grid:
+                return Snap(round(x / grid) * grid, round(y / grid) * grid, "grid")
             return Snap(x, y, "free")
         return idx.snap(x, y, v.tolerance(), grid=v.grid if v.grid_on else None, anchor=anchor, ortho=ortho)
 
@@ -283,6 +286,8 @@ class SelectTool(Tool):
             snap = d["snap"]
             if d["moved"] and snap is not None and len(d["start"]) == 1:
                 self._join_on_drop(d["grab"], snap, d["gesture"])
+            elif d["moved"]:
+                self.doc.commit("Move nodes", edits.join_coincident(self.doc.scheme, d["start"]), gesture=d["gesture"])
             self.hover = None
             return
         if self._box is not None:
@@ -307,6 +312,8 @@ class SelectTool(Tool):
                 s2 = edits.merge_nodes(s2, keep=new, drop=nid)
             self.doc.commit("Move node", s2, gesture=gesture)
             self.ctx.message(f"Node joined to member {snap.target}")
+        else:
+            self.doc.commit("Move node", edits.join_coincident(s, [nid]), gesture=gesture)
 
     def key(self, ev) -> bool:
         if ev.key() in (Qt.Key_Delete, Qt.Key_Backspace):

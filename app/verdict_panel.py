@@ -171,19 +171,25 @@ class VerdictPanel(QWidget):
 
     @staticmethod
     def _split_words(c) -> str:
+        """Where the mechanisms / redundants sit: inside the structure or at the supports."""
+        def n(k, word):
+            return f"{k} {word}{'s' if k != 1 else ''}"
         if c.verdict == "unstable":
-            inside = c.internal_mechanisms
-            at_sup = c.mechanisms - inside
-            parts = [f"Inside the structure: {inside} mechanism{'s' if inside != 1 else ''}",
-                     f"at the supports: {at_sup} (rigid-body motion{'s' if at_sup != 1 else ''} not stopped)"]
+            at_sup = max(0, min(c.rigid_body_mechanisms, c.mechanisms))
+            inside = c.mechanisms - at_sup
+            text = (f"Inside the structure: {n(inside, 'mechanism')}; at the supports: {at_sup} "
+                    f"(rigid-body motion{'s' if at_sup != 1 else ''} the supports do not stop).")
+            if c.internal_mechanisms != inside:
+                text += (f" On its own, without supports, the structure has "
+                         f"{n(c.internal_mechanisms, 'internal mechanism')}.")
             if c.self_stress:
-                parts.append(f"also {c.self_stress} state(s) of self-stress")
-            return "; ".join(parts) + "."
+                text += f" Also {n(c.self_stress, 'state')} of self-stress."
+            return text
         inside = c.internal_self_stress
         at_sup = c.self_stress - inside
         if c.verdict == "determinate":
             return "No mechanisms; no redundant members or reactions."
-        return (f"Redundants inside the structure: {inside}; at the supports: {at_sup}.")
+        return f"Redundants inside the structure: {inside}; at the supports: {at_sup}."
 
     def _on_warning_clicked(self, item: QListWidgetItem) -> None:
         ids = item.data(Qt.UserRole)

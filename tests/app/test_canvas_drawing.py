@@ -250,3 +250,39 @@ def test_zoom_about_cursor_keeps_point_fixed(qtbot, win):
     assert view.px_per_unit() == pytest.approx(s0 * 1.18 ** 2)
     after = view.mapToScene(pos.toPoint())
     assert math.hypot(after.x() - before.x(), after.y() - before.y()) < 2 / view.px_per_unit()
+
+
+def test_dropping_a_node_on_a_node_or_member_joins_them(qtbot, win):
+    view, doc = win.view, win.doc
+    draw_chain(qtbot, win, "beam", [(0, 0), (4, 0)])
+    draw_chain(qtbot, win, "beam", [(2, 3), (3, 2)])
+    win.set_tool("select")
+    # drop the free end (3, 2) onto the first member at (3, 0): it splits there and joins
+    drag(qtbot, view, (3, 2), (3, 0.05), steps=6)
+    s = doc.scheme
+    j = edits.node_at(s, 3, 0)
+    assert j is not None and len(s.members_at(j)) == 3 and len(s.members) == 3
+    steps = doc.undo_stack.count()
+    # drop (2, 3) onto node (0, 0): the two nodes become one
+    drag(qtbot, view, (2, 3), (0.05, 0.02), steps=6)
+    s = doc.scheme
+    assert edits.node_at(s, 2, 3) is None and len(s.members_at(edits.node_at(s, 0, 0))) == 2
+    assert doc.undo_stack.count() == steps + 1
+    doc.undo_stack.undo()
+    assert edits.node_at(doc.scheme, 2, 3) is not None
+
+
+def test_four_hinged_portal_mechanism_is_inside_the_structure(qtbot, win):
+    from kinestat.examples import example_paths
+
+    path = next(p for p in example_paths() if p.stem == "four_hinged_portal")
+    assert win.open_path(path, ask=False)
+    # pinned feet, hinged knees: a four-bar linkage, Gruebler-Kutzbach M = 3(n-1) - 2j = 3x3 - 2x4 = 1
+    assert win.verdict_text() == "Unstable — 1 mechanism"
+    words = win.verdict.split_label.text()
+    assert "Inside the structure: 1 mechanism; at the supports: 0" in words
+    assert win.scene.mode_item.displaced
+    # the sway: both knees move sideways by the same amount (parallel posts, equal heights)
+    s = win.doc.scheme
+    (bx, by), (cx, cy) = (win.scene.mode_item.displaced[n] for n in ("B", "C"))
+    assert bx - s.node_xy("B")[0] == pytest.approx(cx - s.node_xy("C")[0], rel=1e-6)
