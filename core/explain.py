@@ -65,6 +65,8 @@ def _support_reason(scheme: Scheme, result) -> list[str]:
                    "supports are counted")
         return out
     pt, dist = _concurrency_point(lines)
+    if pt is not None:
+        pt = np.where(np.abs(pt) <= 1e-9 * size, 0.0, pt)  # drop rounding noise
     if pt is not None and dist <= 1e-9 * size:
         out.append(f"concurrent reaction lines: every support reaction line (at {', '.join(nodes)}) passes "
                    f"through ({_fmt(pt[0])}, {_fmt(pt[1])}), so the scheme can turn about that point")

@@ -10,6 +10,7 @@ The format is described in ``docs/format.md`` and by the JSON Schema shipped as
 """
 from __future__ import annotations
 
+import contextlib
 import json
 import math
 import os
@@ -299,6 +300,30 @@ def atomic_write_text(path: str | os.PathLike, text: str) -> None:
             fh.write(text)
             fh.flush()
             os.fsync(fh.fileno())
+        os.replace(tmp, p)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+
+
+@contextlib.contextmanager
+def atomic_target(path: str | os.PathLike):
+    """Context manager yielding a temporary path beside ``path``; on success it replaces
+    ``path`` atomically, on error the temporary file is removed and ``path`` is untouched.
+
+    For writers that want a file name (image and PDF writers)::
+
+        with atomic_target("out.png") as tmp:
+            image.save(tmp)
+    """
+    p = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=p.suffix or ".tmp", dir=str(p.parent or "."))
+    os.close(fd)
+    try:
+        yield tmp
         os.replace(tmp, p)
     except BaseException:
         try:
