@@ -54,6 +54,8 @@ class AnalysisRunner(QObject):
     failed = Signal(int, str)
     #: a newer scheme is waiting for its verdict
     pending = Signal()
+    #: revision sent to the background thread
+    started = Signal(int)
 
     def __init__(self, doc, parent: QObject | None = None, *, sync: bool = False, interval_ms: int = 90,
                  thread_members: int = 120):
@@ -115,6 +117,7 @@ class AnalysisRunner(QObject):
             return
         self._busy = True
         self._pool.start(_Job(rev, scheme, self._signals))
+        self.started.emit(rev)
 
     def _on_done(self, rev: int, res, err, seconds: float, thread_id) -> None:
         self._busy = False

@@ -25,7 +25,24 @@ def to_scene(x: float, y: float) -> QPointF:
     return QPointF(x, -y)
 
 
-class MemberItem(QGraphicsPathItem):
+class _Stateful:
+    """Selected / highlighted flags; ``_style`` redraws the item for them."""
+
+    selected = False
+    highlighted = False
+
+    def set_state(self, selected: bool | None = None, highlighted: bool | None = None) -> None:
+        if selected is not None:
+            self.selected = selected
+        if highlighted is not None:
+            self.highlighted = highlighted
+        self._style()
+
+    def _style(self) -> None:
+        self.update()
+
+
+class MemberItem(_Stateful, QGraphicsPathItem):
     """A member's centre line.  Painted by Qt itself (no Python per frame); a halo child
     appears only while the member is selected or highlighted."""
 
@@ -52,12 +69,6 @@ class MemberItem(QGraphicsPathItem):
             self.kind = kind
             self._style()
 
-    def set_state(self, selected: bool | None = None, highlighted: bool | None = None) -> None:
-        if selected is not None:
-            self.selected = selected
-        if highlighted is not None:
-            self.highlighted = highlighted
-        self._style()
 
     def _style(self) -> None:
         pal = dr.PALETTE
@@ -79,7 +90,7 @@ class MemberItem(QGraphicsPathItem):
         """Kept for the scene's zoom bookkeeping (Qt pads a path item's bounds itself)."""
 
 
-class _PixelItem(QGraphicsItem):
+class _PixelItem(_Stateful, QGraphicsItem):
     """An item drawn in device pixels at its position (ignores zoom)."""
 
     extent = 12.0
@@ -95,12 +106,6 @@ class _PixelItem(QGraphicsItem):
         e = self.extent
         return QRectF(-e, -e, 2 * e, 2 * e)
 
-    def set_state(self, selected: bool | None = None, highlighted: bool | None = None) -> None:
-        if selected is not None:
-            self.selected = selected
-        if highlighted is not None:
-            self.highlighted = highlighted
-        self.update()
 
 
 def _glyph_path(glyph: str) -> QPainterPath:
@@ -113,7 +118,7 @@ def _glyph_path(glyph: str) -> QPainterPath:
     return path
 
 
-class NodeItem(QGraphicsPathItem):
+class NodeItem(_Stateful, QGraphicsPathItem):
     """A joint symbol in pixels (dot, ring, hinge ring, open square), painted by Qt itself."""
 
     def __init__(self, node_id: str):
@@ -146,12 +151,6 @@ class NodeItem(QGraphicsPathItem):
                 self._text.setText(label or "")
                 self._text.setVisible(bool(label))
 
-    def set_state(self, selected: bool | None = None, highlighted: bool | None = None) -> None:
-        if selected is not None:
-            self.selected = selected
-        if highlighted is not None:
-            self.highlighted = highlighted
-        self._style()
 
     def _style(self) -> None:
         pal = dr.PALETTE

@@ -62,7 +62,14 @@ def truss(pattern: str, span: float, depth: float, panels: int, supports: bool =
     for i, n in enumerate(bot):
         s = s.with_node(Node(n, i * w, 0.0))
     bars += [(bot[i], bot[i + 1]) for i in range(panels)]
-    if pattern in ("pratt", "howe"):
+    if pattern == "warren":
+        top = [f"t{i}" for i in range(panels)]
+        for i, n in enumerate(top):
+            s = s.with_node(Node(n, (i + 0.5) * w, depth))
+        bars += [(top[i], top[i + 1]) for i in range(panels - 1)]
+        for i in range(panels):
+            bars += [(bot[i], top[i]), (top[i], bot[i + 1])]
+    else:  # parallel chords with verticals
         top = [f"t{i}" for i in range(panels + 1)]
         for i, n in enumerate(top):
             s = s.with_node(Node(n, i * w, depth))
@@ -70,26 +77,15 @@ def truss(pattern: str, span: float, depth: float, panels: int, supports: bool =
         bars += [(bot[i], top[i]) for i in range(panels + 1)]
         for i in range(panels):
             left_half = (i + 0.5) < panels / 2
+            falling = (top[i], bot[i + 1])  # from the top on the left down to the right
+            rising = (bot[i], top[i + 1])
             if pattern == "pratt":
                 # diagonals run from the top at the outer side down towards mid-span
-                bars.append((top[i], bot[i + 1]) if left_half else (bot[i], top[i + 1]))
-            else:
-                bars.append((bot[i], top[i + 1]) if left_half else (top[i], bot[i + 1]))
-    elif pattern == "warren":
-        top = [f"t{i}" for i in range(panels)]
-        for i, n in enumerate(top):
-            s = s.with_node(Node(n, (i + 0.5) * w, depth))
-        bars += [(top[i], top[i + 1]) for i in range(panels - 1)]
-        for i in range(panels):
-            bars += [(bot[i], top[i]), (top[i], bot[i + 1])]
-    else:  # warren with verticals
-        top = [f"t{i}" for i in range(panels + 1)]
-        for i, n in enumerate(top):
-            s = s.with_node(Node(n, i * w, depth))
-        bars += [(top[i], top[i + 1]) for i in range(panels)]
-        bars += [(bot[i], top[i]) for i in range(panels + 1)]
-        for i in range(panels):
-            bars.append((bot[i], top[i + 1]) if i % 2 == 0 else (top[i], bot[i + 1]))
+                bars.append(falling if left_half else rising)
+            elif pattern == "howe":
+                bars.append(rising if left_half else falling)
+            else:  # warren with verticals: alternate
+                bars.append(rising if i % 2 == 0 else falling)
     for k, (a, b) in enumerate(bars, start=1):
         s = s.with_member(Member(f"m{k}", a, b, "bar"))
     if supports:
