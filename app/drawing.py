@@ -501,9 +501,12 @@ def paint_mode_shape(painter: QPainter, scheme: Scheme, displaced: Mapping[str, 
     dash = pen(pal.mechanism, 1.8 * k, Qt.DashLine)
     painter.setPen(dash)
     painter.setBrush(Qt.NoBrush)
+    still = 1e-6 * scheme.size()
     for m in scheme.members.values():
         a = displaced.get(m.start, xy(m.start))
         b = displaced.get(m.end, xy(m.end))
+        if math.dist(a, xy(m.start)) <= still and math.dist(b, xy(m.end)) <= still:
+            continue  # a member that does not move is not drawn again
         painter.drawLine(T.map(*a), T.map(*b))
     thin = pen(pal.mechanism, 1.0 * k)
     for nid, (x1, y1) in displaced.items():

@@ -94,7 +94,7 @@ class MainWindow(QMainWindow):
         self.tabifyDockWidget(p, h)
         p.raise_()
         self.resizeDocks([d], [400], Qt.Horizontal)
-        self.resizeDocks([d, p], [560, 300], Qt.Vertical)
+        self.resizeDocks([d, p], [640, 240], Qt.Vertical)
         self.history_dock = h
 
     def _action(self, text, slot=None, shortcut=None, tip=None, checkable=False, icon_name=None) -> QAction:
@@ -277,7 +277,7 @@ class MainWindow(QMainWindow):
         s, nodes, members = edits.insert(self.doc.scheme, part)
         self.doc.commit(f"Insert {what}", s)
         self.doc.select(nodes, members)
-        self.view.fit()
+        self._fit_soon()
 
     def insert_frame(self) -> None:
         dlg = FrameDialog(self, self.doc.scheme.units)
@@ -297,6 +297,13 @@ class MainWindow(QMainWindow):
         if not self.doc.scheme.members:
             self.scene.set_classification(None)
 
+    def _fit_soon(self) -> None:
+        """Fit now, once the window is laid out, and again when the verdict (and its mechanism
+        shape, which may reach outside the drawing) arrives."""
+        self._fit_on_result = True
+        self.view.fit()
+        QTimer.singleShot(0, self.view.fit)
+
     def _on_pending(self) -> None:
         self.verdict.set_pending(True)
 
@@ -304,6 +311,9 @@ class MainWindow(QMainWindow):
         self.units_label.setText(f"  units: {self.doc.scheme.units} ")
         self.verdict.show_result(c, empty=not self.doc.scheme.members)
         self.scene.set_classification(c)
+        if getattr(self, "_fit_on_result", False):
+            self._fit_on_result = False
+            self.view.fit()
 
     def _on_failed(self, rev: int, message: str) -> None:
         self.verdict.show_error(message)
@@ -363,8 +373,7 @@ class MainWindow(QMainWindow):
             self._add_recent(Path(path))
         clear_recovery(self.recovery_path)
         self._autosaved_revision = self.doc.revision
-        QTimer.singleShot(0, self.view.fit)
-        self.view.fit()
+        self._fit_soon()
         self._message(f"Opened {Path(path).name}" + (" (example: Save as to keep a copy)" if as_example else ""))
         return True
 
@@ -482,7 +491,7 @@ class MainWindow(QMainWindow):
             return False
         self.doc.replace_scheme(scheme, source, clean=False)
         self._update_title()
-        self.view.fit()
+        self._fit_soon()
         self._message("Drawing restored from the recovery file: save it to keep it")
         return True
 

@@ -21,6 +21,8 @@ from .edits import member_line
 
 #: snap kinds, strongest first
 SNAP_KINDS = ("node", "midpoint", "member", "grid", "free")
+#: nodes attract from further away than members do (a click near a corner means the corner)
+NODE_REACH = 1.6
 
 
 @dataclass(frozen=True)
@@ -81,7 +83,7 @@ class SnapIndex:
 
     def pick(self, x: float, y: float, tol: float) -> tuple[str, str] | None:
         """What is under the cursor: ("node", id) before ("member", id)."""
-        n = self.nearest_node(x, y, tol)
+        n = self.nearest_node(x, y, tol * NODE_REACH)
         if n:
             return ("node", n[0])
         m = self.nearest_member(x, y, tol)
@@ -114,7 +116,7 @@ class SnapIndex:
         """
         if ortho and anchor is not None:
             return self._snap_ortho(x, y, tol, grid, anchor)
-        n = self.nearest_node(x, y, tol)
+        n = self.nearest_node(x, y, tol * NODE_REACH)
         if n:
             nx, ny = self.scheme.node_xy(n[0])
             return Snap(nx, ny, "node", n[0])

@@ -5,8 +5,8 @@ from __future__ import annotations
 
 from PySide6.QtCore import QPointF, Qt, Signal
 from PySide6.QtGui import QPainter, QPixmap
-from PySide6.QtWidgets import (QFrame, QGridLayout, QLabel, QListWidget, QListWidgetItem, QSizePolicy,
-                               QVBoxLayout, QWidget)
+from PySide6.QtWidgets import (QFrame, QGridLayout, QLabel, QListWidget, QListWidgetItem, QScrollArea,
+                               QSizePolicy, QVBoxLayout, QWidget)
 
 from . import drawing as dr
 
@@ -31,14 +31,21 @@ def _heading(text: str) -> QLabel:
     return lab
 
 
-class VerdictPanel(QWidget):
+class VerdictPanel(QScrollArea):
+    """Scrolls when the explanations are long; the warnings list keeps a useful height."""
+
     #: ids of the items a clicked warning concerns
     highlight_requested = Signal(tuple)
 
     def __init__(self, parent=None):
         super().__init__(parent)
         self.classification = None
-        lay = QVBoxLayout(self)
+        inner = QWidget()
+        self.setWidget(inner)
+        self.setWidgetResizable(True)
+        self.setFrameShape(QFrame.NoFrame)
+        self.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
+        lay = QVBoxLayout(inner)
         lay.setContentsMargins(10, 8, 10, 8)
         lay.setSpacing(3)
         top = QGridLayout()
@@ -103,6 +110,7 @@ class VerdictPanel(QWidget):
         self.warnings.setWordWrap(True)
         self.warnings.setFrameShape(QFrame.NoFrame)
         self.warnings.setSizePolicy(QSizePolicy.Preferred, QSizePolicy.Expanding)
+        self.warnings.setMinimumHeight(90)
         self.warnings.itemClicked.connect(self._on_warning_clicked)
         self.warnings.currentItemChanged.connect(lambda cur, _prev: cur and self._on_warning_clicked(cur))
         lay.addWidget(self.warnings, 1)
