@@ -50,7 +50,9 @@ class PropertiesPanel(QWidget):
         self.units_combo = QComboBox()
         self.units_combo.addItems(UNITS)
         self.units_combo.setEditable(True)
-        self.units_combo.currentTextChanged.connect(self._on_units)
+        # one step per finished entry, not per keystroke
+        self.units_combo.lineEdit().editingFinished.connect(lambda: self._on_units(self.units_combo.currentText()))
+        self.units_combo.activated.connect(lambda _i: self._on_units(self.units_combo.currentText()))
         self.counts_label = QLabel()
         f.addRow("Title", self.title_edit)
         f.addRow("Units", self.units_combo)

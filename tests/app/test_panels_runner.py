@@ -181,3 +181,18 @@ def test_runner_sync_mode_small_models_inline(qtbot):
     assert runner.result.verdict == "unstable"  # collinear bars (Maxwell 1864)
     doc.move_nodes({"C": (2.0, 0.5)})
     assert runner.result.verdict == "determinate"
+
+
+def test_title_and_units_are_one_step_each(qtbot, win):
+    p = win.props
+    win.doc.clear_selection()
+    p.title_edit.setFocus()
+    qtbot.keyClicks(p.title_edit, "Shed")
+    qtbot.keyClick(p.title_edit, Qt.Key_Return)
+    assert win.doc.scheme.title == "Shed" and win.doc.undo_stack.count() == 1
+    edit = p.units_combo.lineEdit()
+    edit.selectAll()
+    qtbot.keyClicks(edit, "ft")
+    qtbot.keyClick(edit, Qt.Key_Return)
+    assert win.doc.scheme.units == "ft" and win.doc.undo_stack.count() == 2
+    assert "ft" in win.units_label.text()
