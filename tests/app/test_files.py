@@ -175,3 +175,28 @@ def test_recovery_file_is_valid_json_with_the_scheme(qtbot, win):
     win.autosave()
     data = json.loads(win.recovery_path.read_text(encoding="utf-8"))
     assert data["format"] == "kinestat-recovery" and data["scheme"]["format"] == "kinestat-scheme"
+
+
+def test_first_start_shows_the_caution_once_and_about_carries_it(qtbot, tmp_path, monkeypatch):
+    from PySide6.QtCore import QSettings
+
+    from kinestat.app.dialogs import ABOUT_HTML
+    from kinestat.app.drawing import CAUTION
+    from kinestat.app.main_window import MainWindow
+
+    settings = QSettings(str(tmp_path / "fresh.ini"), QSettings.IniFormat)
+    w = MainWindow(settings, tmp_path / "rec.json", sync_analysis=True)
+    qtbot.addWidget(w)
+    w.show()
+    w.first_start()
+    box = w._welcome
+    assert box.isVisible() and CAUTION in box.text()
+    box.close()
+    w._welcome = None
+    w.first_start()
+    assert w._welcome is None  # only once per user
+    assert CAUTION in ABOUT_HTML
+    shown = []
+    monkeypatch.setattr(QMessageBox, "about", lambda *a: shown.append(a[2]))
+    w.about()
+    assert shown and "licensed" in shown[0]
