@@ -72,7 +72,7 @@ CLEAN_RTOL = 1e-11
 ZERO_VALUE = 1e-8
 #: above these sizes the dense route is not attempted (``check --json`` notes the skip)
 MAX_MEMBERS = 3000
-MAX_DENSE_ENTRIES = 12_000_000
+MAX_DENSE_ENTRIES = 6_000_000
 #: re-analyse every removal with classify() when members + restraints are at most this
 CONFIRM_LIMIT = 150
 
@@ -593,11 +593,12 @@ def redundancy(scheme: Scheme, classification: Classification | None = None, *,
     system = c.system
     ncols = len(system.cols)
     s = c.self_stress
-    gb = local_basis(scheme, system, c.rank.rank) if ncols else GreedyBasis([], [], np.zeros((0, 0)),
-                                                                             np.zeros((0, 0)), np.zeros((0, 0)))
-    order = sweep_order(scheme, system)
-    S = normalise_states(localise_states(scheme, system, gb, order)) if ncols else np.zeros((0, 0))
-    S, keys = order_states(S, order)
+    if s > 0:
+        gb = local_basis(scheme, system, c.rank.rank)
+        order = sweep_order(scheme, system)
+        S, keys = order_states(normalise_states(localise_states(scheme, system, gb, order)), order)
+    else:  # statically determinate (or unstable without self-stress): nothing to share
+        S, keys = np.zeros((ncols, 0)), []
     states = states_from_basis(system, S, keys)
     diag = np.zeros(ncols)
     FS = X = None
