@@ -66,8 +66,9 @@ class Classification:
     def split_text(self) -> str:
         ext_s = self.self_stress - self.internal_self_stress
         if self.verdict == "unstable":
-            return (f"{self.internal_mechanisms} internal mechanism(s), "
-                    f"{self.mechanisms - self.internal_mechanisms} at the supports")
+            inside = self.mechanisms - self.rigid_body_mechanisms
+            return (f"{inside} inside the structure, {self.rigid_body_mechanisms} rigid-body motion(s) the "
+                    f"supports leave free")
         return f"{self.internal_self_stress} inside the structure, {ext_s} at the supports"
 
     def to_json(self) -> dict:
@@ -77,7 +78,8 @@ class Classification:
             "mechanisms": self.mechanisms,
             "self_stress": self.self_stress,
             "internal": {"mechanisms": self.internal_mechanisms, "self_stress": self.internal_self_stress},
-            "supports": {"mechanisms": self.mechanisms - self.internal_mechanisms,
+            # rigid-body motions the supports leave free; self-stress that needs reactions
+            "supports": {"mechanisms": self.rigid_body_mechanisms,
                          "self_stress": self.self_stress - self.internal_self_stress},
             "rigid_body_mechanisms": self.rigid_body_mechanisms,
             "count": self.count.to_json(),
