@@ -39,8 +39,11 @@ def _text(path: str, out: dict) -> str:
     t = c["terms"]
     lines = [f"{path}: {out['summary']}",
              f"  rank result: m = {out['mechanisms']} mechanism(s), s = {out['self_stress']} state(s) of "
-             f"self-stress (inside the structure: m = {out['internal']['mechanisms']}, "
-             f"s = {out['internal']['self_stress']})",
+             f"self-stress",
+             f"  inside the structure (supports removed): {out['internal']['mechanisms']} internal "
+             f"mechanism(s), {out['internal']['self_stress']} self-stress state(s) needing no reaction; "
+             f"at the supports: {out['supports']['mechanisms']} rigid-body motion(s) left free, "
+             f"{out['supports']['self_stress']} redundant reaction(s)",
              f"  hand count ({c['form']}): joints {t['joints']}, members {t['members']}, reactions "
              f"{t['reactions']}, releases {t['releases']}: {c['formula']}"]
     if "closed_loop" in c:
