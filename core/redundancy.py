@@ -70,6 +70,9 @@ DEPENDENT_RTOL = 1e-9
 CLEAN_RTOL = 1e-11
 #: a redundancy value (or a singular value of the basis rows) below this is zero
 ZERO_VALUE = 1e-8
+#: a local search for a state stops when its ball holds more forces than this (or a quarter
+#: of all); the state found by the sweep itself is used then
+LOCAL_BALL_MAX = 240
 #: above these sizes the dense route is not attempted (``check --json`` notes the skip)
 MAX_MEMBERS = 3000
 MAX_DENSE_ENTRIES = 6_000_000
@@ -421,17 +424,23 @@ def localise_states(scheme: Scheme, system: System, gb: GreedyBasis, order: np.n
     pos[order] = np.arange(ncols)
     allowed = np.zeros(ncols, bool)
     allowed[gb.kept] = True
+    big_ball = max(LOCAL_BALL_MAX, ncols // 4)
     S = np.zeros((ncols, len(gb.redundant)))
     for j, c in enumerate(gb.redundant):
         dist = {n: 0 for n in col_nodes[c]}
         frontier = list(dist)
         found = None
         r = 0
+        next_try = 0          # the ball is tried at radius 0, 1, 2, 3, 4, 6, 9, ...
         while True:
             # allowed columns with every node inside the ball
             ball = {cc for n in dist for cc in cols_at.get(n, ())
                     if allowed[cc] and all(x in dist for x in col_nodes[cc])}
-            if ball:
+            if len(ball) > big_ball:
+                break  # not local: the sweep's own circuit will do
+            ring = list(dict.fromkeys(nb for n in frontier for nb in adj.get(n, ()) if nb not in dist))
+            if ball and (r >= next_try or not ring):
+                next_try = max(r + 1, int(r * 1.5))
                 loc = sorted(ball, key=lambda cc: (max(dist[x] for x in col_nodes[cc]), pos[cc]))
                 loc.append(c)
                 rows = np.unique(np.concatenate([col_rows[cc] for cc in loc]))
@@ -443,16 +452,12 @@ def localise_states(scheme: Scheme, system: System, gb: GreedyBasis, order: np.n
                     found[[loc[k] for k in g.kept]] = -x
                     found[c] = 1.0
                     break
-            r += 1
-            nxt = []
-            for n in frontier:
-                for nb in adj.get(n, ()):
-                    if nb not in dist:
-                        dist[nb] = r
-                        nxt.append(nb)
-            if not nxt:
+            if not ring:
                 break
-            frontier = nxt
+            r += 1
+            for nb in ring:
+                dist[nb] = r
+            frontier = ring
         if found is None:
             if S_global is None:
                 S_global = gb.states(ncols)

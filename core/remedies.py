@@ -40,6 +40,7 @@ from typing import Callable
 
 import numpy as np
 import scipy.linalg as la
+import scipy.sparse as sp
 
 from .classify import Classification, classify
 from .model import Member, Scheme, Support, arc_points
@@ -77,6 +78,10 @@ class Candidate:
     change: dict = field(default_factory=dict)
     gain: int = 0
     score: float = 0.0
+
+    def __post_init__(self):
+        if self.V is not None and not sp.issparse(self.V):
+            self.V = sp.csc_matrix(self.V)     # a few entries each: keep them sparse
 
 
 @dataclass
@@ -439,23 +444,26 @@ def candidates(scheme: Scheme, c: Classification) -> list[Candidate]:
 
 
 # --------------------------------------------------------------------------- scoring
-def _gain(D: np.ndarray, V: np.ndarray) -> tuple[int, float]:
+def _gain(D: np.ndarray, V) -> tuple[int, float]:
     """Mechanisms removed by constraint vectors V (rows x k) from the motions D; and the score."""
-    if D.shape[1] == 0 or V.shape[1] == 0:
+    if V is None or D.shape[1] == 0 or V.shape[1] == 0:
         return 0, 0.0
-    norms = np.linalg.norm(V, axis=0)
-    W = D.T @ (V / np.where(norms > 0, norms, 1.0))
+    V = sp.csc_matrix(V)
+    norms = np.sqrt(np.asarray(V.multiply(V).sum(axis=0)).ravel())
+    W = np.asarray(V.T @ D) / np.where(norms > 0, norms, 1.0)[:, None]
     sv = np.linalg.svd(W, compute_uv=False)
     return int(np.count_nonzero(sv > SCORE_MIN)), float(sv.max()) if sv.size else 0.0
 
 
-def _restrict(D: np.ndarray, V: np.ndarray) -> np.ndarray:
-    """Orthonormal basis of the motions in span(D) that the constraints V stop nothing of."""
-    W = V.T @ D
+def _restrict(D: np.ndarray, V) -> np.ndarray:
+    """Orthonormal basis of the motions in span(D) that the constraints V leave free."""
+    V = sp.csc_matrix(V)
+    norms = np.sqrt(np.asarray(V.multiply(V).sum(axis=0)).ravel())
+    W = np.asarray(V.T @ D) / np.where(norms > 0, norms, 1.0)[:, None]
     if W.size == 0:
         return D
     _, sv, Vt = np.linalg.svd(W, full_matrices=True)
-    r = int(np.count_nonzero(sv > SCORE_MIN * max(1.0, float(np.linalg.norm(V, axis=0).max()))))
+    r = int(np.count_nonzero(sv > SCORE_MIN))
     return D @ Vt[r:].T
 
 
