@@ -41,6 +41,8 @@ class Change:
     supports: Mapping[str, tuple[Support | None, Support | None]] = field(default_factory=dict)
     #: (title, units) before and after, or None
     meta: tuple[tuple[str, str], tuple[str, str]] | None = None
+    #: the scheme's verbatim top-level blocks before and after, or None (not an edit on its own)
+    extra: tuple[Mapping, Mapping] | None = None
 
     def is_empty(self) -> bool:
         return not (self.nodes or self.members or self.supports or self.meta)
@@ -48,7 +50,8 @@ class Change:
     def inverted(self) -> "Change":
         flip = lambda d: {k: (b, a) for k, (a, b) in d.items()}  # noqa: E731
         meta = (self.meta[1], self.meta[0]) if self.meta else None
-        return Change(flip(self.nodes), flip(self.members), flip(self.supports), meta)
+        extra = (self.extra[1], self.extra[0]) if self.extra else None
+        return Change(flip(self.nodes), flip(self.members), flip(self.supports), meta, extra)
 
     def then(self, later: "Change") -> "Change":
         """This change followed by ``later``, as one change."""
@@ -62,8 +65,11 @@ class Change:
             first = (self.meta or later.meta)[0]
             last = (later.meta or self.meta)[1]
             meta = (first, last) if first != last else None
+        extra = None
+        if self.extra or later.extra:
+            extra = ((self.extra or later.extra)[0], (later.extra or self.extra)[1])
         return Change(comp(self.nodes, later.nodes), comp(self.members, later.members),
-                      comp(self.supports, later.supports), meta)
+                      comp(self.supports, later.supports), meta, extra)
 
     def apply(self, scheme: Scheme) -> Scheme:
         """The scheme with every "after" value in place."""
@@ -80,6 +86,8 @@ class Change:
         kw = {}
         if self.meta:
             kw = {"title": self.meta[1][0], "units": self.meta[1][1]}
+        if self.extra:
+            kw["extra"] = self.extra[1]
         return replace(scheme, nodes=upd(scheme.nodes, self.nodes), members=upd(scheme.members, self.members),
                        supports=upd(scheme.supports, self.supports), **kw)
 
@@ -129,6 +137,8 @@ class EditCommand(QUndoCommand):
         self.change = self.change.then(other.change)
         if self.change.is_empty():
             self.setObsolete(True)  # a drag that came back where it started leaves no step
+            if self.change.extra:  # ... and drops nothing
+                self.doc._apply(self.change.inverted())
         return True
 
 
@@ -175,17 +185,21 @@ class Document(QObject):
 
     def commit(self, text: str, after: Scheme, gesture: int | None = None) -> bool:
         """Push the edit that turns the current scheme into ``after``; False if nothing changed."""
-        change = diff(self._scheme, after)
-        if change.is_empty():
-            return False
-        self.undo_stack.push(EditCommand(self, text, change, gesture))
-        return True
+        return self.commit_change(text, diff(self._scheme, after), gesture)
 
     def commit_change(self, text: str, change: Change, gesture: int | None = None) -> bool:
         if change.is_empty():
             return False
-        self.undo_stack.push(EditCommand(self, text, change, gesture))
+        self.undo_stack.push(EditCommand(self, text, self._drop_expected(change), gesture))
         return True
+
+    def _drop_expected(self, change: Change) -> Change:
+        """An "expected" block (an example's known verdict) no longer describes an edited
+        drawing: the first edit drops it, in the same undo step (undo brings it back)."""
+        ex = self._scheme.extra
+        if "expected" not in ex or change.extra is not None:
+            return change
+        return replace(change, extra=(ex, {k: v for k, v in ex.items() if k != "expected"}))
 
     def move_nodes(self, positions: Mapping[str, tuple[float, float]], gesture: int | None = None) -> bool:
         """Move nodes (members follow).  Give one ``gesture`` for all the moves of one drag."""
