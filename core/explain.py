@@ -169,6 +169,10 @@ def explain(scheme: Scheme, result) -> list[str]:
             out.append(f"three hinges in line: hinge {h} lies on the line through the pinned supports {a} and "
                        f"{b}, so the two parts it joins can turn together (only infinitesimally: the first "
                        "movement already stretches the line)")
+    if len(out) == (1 if D >= 0 else 0) and len(scheme.members) <= 5000:
+        for quad in _unbraced_panels(scheme, result)[:3]:
+            out.append(f"unbraced panel: {'–'.join(quad)} has no diagonal, so it can shear (a four-sided "
+                       "panel of pin-ended members is a mechanism however many members the rest has)")
     specific = len(out) - (1 if D >= 0 else 0)
     if specific == 0 and s > 0 and D >= 0:
         moving = _moving_nodes(result)
@@ -309,3 +313,49 @@ def _hinges_in_line(scheme: Scheme, system, candidates: list[str]):
                 if off <= 1e-3 * size and (best is None or off < best[3]):
                     best = (h, a, b, off)
     return best
+
+
+def _unbraced_panels(scheme: Scheme, result) -> list[tuple[str, str, str, str]]:
+    """Four-sided panels without a diagonal that the first mechanism mode shears.
+
+    A panel a-b-c-d (members a-b, b-c, c-d, d-a) shears in a mode when a diagonal would
+    change length at first order: (v_c - v_a) . (x_c - x_a) != 0 or likewise for b-d.
+    Only panels with pinned corners (no rotation DOF, or a rotation released) count.
+    """
+    if not result.modes:
+        return []
+    mode = result.modes[0]
+    disp = mode.displacements
+    adj: dict[str, set[str]] = {}
+    for m in scheme.members.values():
+        if m.rise:
+            continue
+        adj.setdefault(m.start, set()).add(m.end)
+        adj.setdefault(m.end, set()).add(m.start)
+    moving = {n for n, (dx, dy) in disp.items() if dx * dx + dy * dy > 1e-12}
+    found = []
+    seen = set()
+
+    def rate(a: str, c: str) -> float:
+        (xa, ya), (xc, yc) = scheme.node_xy(a), scheme.node_xy(c)
+        (ua, va), (uc, vc) = disp.get(a, (0.0, 0.0)), disp.get(c, (0.0, 0.0))
+        L = math.hypot(xc - xa, yc - ya) or 1.0
+        return abs((uc - ua) * (xc - xa) + (vc - va) * (yc - ya)) / L
+
+    for a in sorted(moving):
+        for b in sorted(adj.get(a, ())):
+            for c in sorted(adj.get(b, ())):
+                if c == a:
+                    continue
+                for d in sorted(adj.get(c, ())):
+                    if d in (a, b) or a not in adj.get(d, ()):
+                        continue
+                    key = frozenset((a, b, c, d))
+                    if key in seen:
+                        continue
+                    seen.add(key)
+                    if c in adj.get(a, ()) or d in adj.get(b, ()):
+                        continue  # braced
+                    if max(rate(a, c), rate(b, d)) > 1e-6:
+                        found.append((a, b, c, d))
+    return found
