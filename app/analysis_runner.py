@@ -31,15 +31,15 @@ class _Signals(QObject):
 
 
 class _Job(QRunnable):
-    def __init__(self, revision: int, scheme: Scheme, signals: _Signals):
+    def __init__(self, revision: int, scheme: Scheme, signals: _Signals, compute=classify_scheme):
         super().__init__()
-        self.revision, self.scheme, self.signals = revision, scheme, signals
+        self.revision, self.scheme, self.signals, self.compute = revision, scheme, signals, compute
         self.setAutoDelete(True)
 
     def run(self) -> None:
         t0 = time.perf_counter()
         try:
-            res, err = classify_scheme(self.scheme), None
+            res, err = self.compute(self.scheme), None
         except Exception as exc:  # noqa: BLE001 - reported to the user, never a crash
             res, err = None, exc
         self.signals.done.emit(self.revision, res, err, time.perf_counter() - t0, threading.get_ident())
@@ -58,10 +58,12 @@ class AnalysisRunner(QObject):
     started = Signal(int)
 
     def __init__(self, doc, parent: QObject | None = None, *, sync: bool = False, interval_ms: int = 90,
-                 thread_members: int = 120):
+                 thread_members: int = 120, compute=classify_scheme):
         super().__init__(parent)
         self.doc = doc
         self.sync = sync
+        #: scheme -> result, run on each snapshot (the engine's verdict unless told otherwise)
+        self.compute = compute
         #: members above which the engine runs off the GUI thread
         self.thread_members = thread_members
         self.result = None
@@ -101,7 +103,7 @@ class AnalysisRunner(QObject):
         rev, scheme = self.doc.revision, self.doc.scheme
         t0 = time.perf_counter()
         try:
-            res, err = classify_scheme(scheme), None
+            res, err = self.compute(scheme), None
         except Exception as exc:  # noqa: BLE001
             res, err = None, exc
         self._finish(rev, res, err, time.perf_counter() - t0)
@@ -116,7 +118,7 @@ class AnalysisRunner(QObject):
             self.run_now()
             return
         self._busy = True
-        self._pool.start(_Job(rev, scheme, self._signals))
+        self._pool.start(_Job(rev, scheme, self._signals, self.compute))
         self.started.emit(rev)
 
     def _on_done(self, rev: int, res, err, seconds: float, thread_id) -> None:
