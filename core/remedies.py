@@ -40,7 +40,6 @@ from typing import Callable
 
 import numpy as np
 import scipy.linalg as la
-import scipy.sparse as sp
 
 from .classify import Classification, classify
 from .model import Member, Scheme, Support, arc_points
@@ -73,15 +72,21 @@ class Candidate:
     description: str
     apply: Callable[[Scheme], Scheme]
     cost: float
-    #: constraint vectors on the rows of A (rows x k); None = scored by re-analysis
-    V: np.ndarray | None
+    #: constraint vectors on the rows of A (rows x k, kept as (row indices, unit columns));
+    #: None = scored by re-analysis
+    V: np.ndarray | tuple | None
     change: dict = field(default_factory=dict)
     gain: int = 0
     score: float = 0.0
 
     def __post_init__(self):
-        if self.V is not None and not sp.issparse(self.V):
-            self.V = sp.csc_matrix(self.V)     # a few entries each: keep them sparse
+        # keep only the rows a change touches, with unit columns: (row indices, values)
+        if self.V is not None and not isinstance(self.V, tuple):
+            V = np.asarray(self.V, float)
+            nz = np.nonzero(np.abs(V).sum(axis=1))[0]
+            Vc = V[nz]
+            norms = np.linalg.norm(Vc, axis=0)
+            self.V = (nz, Vc / np.where(norms > 0, norms, 1.0))
 
 
 @dataclass
@@ -445,21 +450,18 @@ def candidates(scheme: Scheme, c: Classification) -> list[Candidate]:
 
 # --------------------------------------------------------------------------- scoring
 def _gain(D: np.ndarray, V) -> tuple[int, float]:
-    """Mechanisms removed by constraint vectors V (rows x k) from the motions D; and the score."""
-    if V is None or D.shape[1] == 0 or V.shape[1] == 0:
+    """Mechanisms removed by the constraints V (rows, unit columns) from the motions D; and the score."""
+    if V is None or D.shape[1] == 0 or V[1].shape[1] == 0:
         return 0, 0.0
-    V = sp.csc_matrix(V)
-    norms = np.sqrt(np.asarray(V.multiply(V).sum(axis=0)).ravel())
-    W = np.asarray(V.T @ D) / np.where(norms > 0, norms, 1.0)[:, None]
-    sv = np.linalg.svd(W, compute_uv=False)
+    rows, Vc = V
+    sv = np.linalg.svd(Vc.T @ D[rows], compute_uv=False)
     return int(np.count_nonzero(sv > SCORE_MIN)), float(sv.max()) if sv.size else 0.0
 
 
 def _restrict(D: np.ndarray, V) -> np.ndarray:
     """Orthonormal basis of the motions in span(D) that the constraints V leave free."""
-    V = sp.csc_matrix(V)
-    norms = np.sqrt(np.asarray(V.multiply(V).sum(axis=0)).ravel())
-    W = np.asarray(V.T @ D) / np.where(norms > 0, norms, 1.0)[:, None]
+    rows, Vc = V
+    W = Vc.T @ D[rows]
     if W.size == 0:
         return D
     _, sv, Vt = np.linalg.svd(W, full_matrices=True)
