@@ -136,3 +136,14 @@ def test_cli_primary(tmp_path, capsys):
     assert main(["primary", str(bad)]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and 'node "A"' in err[0] and '"x"' in err[0]
+
+
+def test_units_do_not_change_the_releases():
+    # the choice works on the scale-free equilibrium matrix (moments as M / Lref)
+    from dataclasses import replace
+
+    base = two_bay_portal()
+    mm = replace(base.moved({n.id: (n.x * 1000, n.y * 1000) for n in base.nodes.values()}), units="mm")
+    a, b = primary_structure(base), primary_structure(mm)
+    assert [r.column for r in a.primary.releases] == [r.column for r in b.primary.releases]
+    assert [alt.key() for alt in a.alternatives] == [alt.key() for alt in b.alternatives]
