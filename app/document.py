@@ -41,11 +41,19 @@ class Change:
     supports: Mapping[str, tuple[Support | None, Support | None]] = field(default_factory=dict)
     #: (title, units) before and after, or None
     meta: tuple[tuple[str, str], tuple[str, str]] | None = None
-    #: the scheme's verbatim top-level blocks before and after, or None (not an edit on its own)
+    #: the scheme's verbatim top-level blocks before and after, or None (dropping "expected"
+    #: alone is not an edit on its own; a changed underlay or source block is)
     extra: tuple[Mapping, Mapping] | None = None
 
     def is_empty(self) -> bool:
-        return not (self.nodes or self.members or self.supports or self.meta)
+        return not (self.nodes or self.members or self.supports or self.meta or self.blocks_edited())
+
+    def blocks_edited(self) -> bool:
+        """True when a top-level block other than "expected" differs (underlay, source ...)."""
+        if not self.extra:
+            return False
+        a, b = self.extra
+        return any(a.get(k) != b.get(k) for k in set(a) | set(b) if k != "expected")
 
     def inverted(self) -> "Change":
         flip = lambda d: {k: (b, a) for k, (a, b) in d.items()}  # noqa: E731
@@ -107,8 +115,9 @@ def diff(before: Scheme, after: Scheme) -> Change:
     meta = None
     if (before.title, before.units) != (after.title, after.units):
         meta = ((before.title, before.units), (after.title, after.units))
+    extra = (before.extra, after.extra) if before.extra != after.extra else None
     return Change(d(before.nodes, after.nodes), d(before.members, after.members),
-                  d(before.supports, after.supports), meta)
+                  d(before.supports, after.supports), meta, extra)
 
 
 class EditCommand(QUndoCommand):
