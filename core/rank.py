@@ -286,8 +286,9 @@ def sparse_rank(A: sp.csc_matrix, want_mech: bool = True, max_basis: int = 64,
 def decide_rank(A: sp.csc_matrix, want_mech: bool = True, want_stress: bool = False) -> RankResult:
     """Pick the route by size and return the rank decision."""
     rows, cols = A.shape
-    if rows * cols <= DENSE_MAX_ENTRIES or rows == 0 or cols == 0 or want_stress and cols <= 3000:
-        return dense_rank(A, want_stress=want_stress or True)
+    small = rows * cols <= DENSE_MAX_ENTRIES or rows == 0 or cols == 0
+    if small or (want_stress and cols <= 3000):
+        return dense_rank(A, want_stress=True)  # the full SVD gives both bases at once
     return sparse_rank(A, want_mech=want_mech)
 
 
