@@ -56,7 +56,7 @@ import numpy as np
 import scipy.linalg as la
 import scipy.sparse as sp
 
-from .assemble import System, assemble
+from .assemble import System
 from .classify import Classification, Mode, classify
 from .model import FIX_WORDS, Member, Scheme, Support
 

@@ -21,7 +21,7 @@ import sympy as sy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from catalogue import bars, beams, build, classic, random_scheme, rigid_frame, strip_truss
+from catalogue import bars, build, classic, random_scheme, rigid_frame, strip_truss
 from kinestat.core.classify import classify
 from kinestat.core.model import Member, Node, Support
 from kinestat.core.redundancy import (
