@@ -59,29 +59,31 @@ def hand_count(scheme: Scheme, system: System) -> HandCount:
         return HandCount(value, {"joints": j, "members": n_m, "reactions": r, "releases": 0}, formula, "truss")
 
     detail: list[tuple[str, int, tuple[str, ...]]] = []
-    ends_at: dict[str, list[str]] = {n: [] for n in active}
-    for m in members:
-        ends_at[m.start].append(m.id)
-        ends_at[m.end].append(m.id)
-    for nid in active:
-        has_theta = system.node_dof[nid][2] is not None
-        released = []
-        for mid in ends_at[nid]:
-            m = scheme.members[mid]
-            if m.kind == "bar" or "moment" in m.releases_at(nid) or scheme.nodes[nid].hinge:
-                released.append(mid)
-        if not has_theta:
-            k = len(ends_at[nid])
-            if k >= 2:
-                detail.append((f"full hinge at {nid} joining {k} members (n - 1)", k - 1, (nid, *ends_at[nid])))
-        else:
-            for mid in released:
-                detail.append((f"moment release of {mid} at {nid}", 1, (mid, nid)))
-    for m in members:
-        for end, nid, rel in (("start", m.start, m.releases_start), ("end", m.end, m.releases_end)):
-            for word in ("shear", "axial"):
-                if word in rel:
-                    detail.append((f"{word} release of {m.id} at its {end} ({nid})", 1, (m.id, nid)))
+    if system.release_rows or any(m.kind == "bar" for m in members) or \
+            any(it is None for (_, _, it) in system.node_dof.values()):
+        ends_at: dict[str, list[str]] = {n: [] for n in active}
+        for m in members:
+            ends_at[m.start].append(m.id)
+            ends_at[m.end].append(m.id)
+        for nid in active:
+            has_theta = system.node_dof[nid][2] is not None
+            released = []
+            for mid in ends_at[nid]:
+                m = scheme.members[mid]
+                if m.kind == "bar" or "moment" in m.releases_at(nid) or scheme.nodes[nid].hinge:
+                    released.append(mid)
+            if not has_theta:
+                k = len(ends_at[nid])
+                if k >= 2:
+                    detail.append((f"full hinge at {nid} joining {k} members (n - 1)", k - 1, (nid, *ends_at[nid])))
+            else:
+                for mid in released:
+                    detail.append((f"moment release of {mid} at {nid}", 1, (mid, nid)))
+        for m in members:
+            for end, nid, rel in (("start", m.start, m.releases_start), ("end", m.end, m.releases_end)):
+                for word in ("shear", "axial"):
+                    if word in rel:
+                        detail.append((f"{word} release of {m.id} at its {end} ({nid})", 1, (m.id, nid)))
     c = sum(v for _, v, _ in detail)
     value = 3 * n_m + r - 3 * j - c
     formula = f"3m + r - 3j - c = 3×{n_m} + {r} - 3×{j} - {c} = {value}"
@@ -89,24 +91,13 @@ def hand_count(scheme: Scheme, system: System) -> HandCount:
     closed = None
     if c == 0:
         supported = [s.node for s in scheme.supports.values() if s.node in system.node_dof]
-        # graph: joints + one ground vertex; edges: members + one link per supported joint
+        # graph: joints + one ground vertex; edges: members + one link per supported joint;
+        # its components are the ground's own plus every piece that no support reaches
         V = j + 1
         E = n_m + len(supported)
-        # components of that graph
-        parent = {n: n for n in active}
-        parent["__ground__"] = "__ground__"
-
-        def find(a: str) -> str:
-            while parent[a] != a:
-                parent[a] = parent[parent[a]]
-                a = parent[a]
-            return a
-
-        for m in members:
-            parent[find(m.start)] = find(m.end)
-        for nid in supported:
-            parent[find(nid)] = find("__ground__")
-        P = len({find(n) for n in parent})
+        sup_set = set(supported)
+        free = sum(1 for piece in system.pieces if not any(n in sup_set for n in piece))
+        P = free + 1
         C = E - V + P
         R = 0
         for s in scheme.supports.values():
