@@ -99,11 +99,12 @@ def _num(x: float):
     return None if x is None or not math.isfinite(x) else float(x)
 
 
-def _node_arrays(system: System, scheme: Scheme):
+def _node_arrays(system: System, scheme: Scheme | None):
     ids = list(system.node_dof)
     dof = np.array([system.node_dof[n][:2] for n in ids], int).reshape(-1, 2)
     th = np.array([-1 if system.node_dof[n][2] is None else system.node_dof[n][2] for n in ids], int)
-    xy = np.array([scheme.node_xy(n) for n in ids], float).reshape(-1, 2)
+    xy = (np.array([scheme.node_xy(n) for n in ids], float).reshape(-1, 2) if scheme is not None
+          else np.zeros((len(ids), 2)))
     return ids, dof, th, xy
 
 
@@ -168,19 +169,19 @@ def reference_supported(system: System, scheme: Scheme):
     return sp.hstack([system.A[:, member_cols], R]).tocsc()
 
 
-def _mode_from_vector(vec: np.ndarray, system: System, kind: str) -> Mode:
-    disp, rot, gaps = {}, {}, {}
-    scale = 0.0
-    for nid, (iu, iv, it) in system.node_dof.items():
-        scale = max(scale, math.hypot(vec[iu], vec[iv]))
+def _mode_from_vector(vec: np.ndarray, system: System, kind: str, arrays=None) -> Mode:
+    ids, dof, th, _ = arrays if arrays is not None else _node_arrays(system, None)
+    u, v = vec[dof[:, 0]], vec[dof[:, 1]]
+    scale = float(np.hypot(u, v).max()) if u.size else 0.0
     if scale < 1e-12 * max(1.0, float(np.abs(vec).max())):
         scale = float(np.abs(vec).max()) or 1.0
-    for nid, (iu, iv, it) in system.node_dof.items():
-        disp[nid] = (float(vec[iu] / scale), float(vec[iv] / scale))
-        if it is not None:
-            rot[nid] = float(vec[it] / scale / system.lref)
-    for r, (kind_r, item, detail) in enumerate(system.rows):
-        if kind_r == "release":
+    u, v = (u / scale).tolist(), (v / scale).tolist()
+    disp = {nid: (a, b) for nid, a, b in zip(ids, u, v)}
+    rot = {nid: float(vec[t] / scale / system.lref) for nid, t in zip(ids, th.tolist()) if t >= 0}
+    gaps = {}
+    for r_list in system.release_rows.values():
+        for r in r_list:
+            _, item, detail = system.rows[r]
             gaps[(item, detail)] = float(vec[r] / scale)
     return Mode(disp, rot, gaps, kind)
 
@@ -243,8 +244,10 @@ def classify(scheme: Scheme, *, bases: bool = False, max_modes: int = 12) -> Cla
         basis = _order_modes(basis, T) if basis.shape[1] == m else basis
         basis = _canonical_sign(basis)
         n_rigid = rigid_m
+        arrays = _node_arrays(system, None)
         for k in range(min(basis.shape[1], max_modes)):
-            modes.append(_mode_from_vector(basis[:, k], system, "rigid-body" if k < n_rigid else "internal"))
+            modes.append(_mode_from_vector(basis[:, k], system, "rigid-body" if k < n_rigid else "internal",
+                                           arrays))
 
     stress_basis = None
     if bases:

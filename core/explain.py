@@ -169,7 +169,8 @@ def explain(scheme: Scheme, result) -> list[str]:
             out.append(f"three hinges in line: hinge {h} lies on the line through the pinned supports {a} and "
                        f"{b}, so the two parts it joins can turn together (only infinitesimally: the first "
                        "movement already stretches the line)")
-    if len(out) == (1 if D >= 0 else 0) and len(scheme.members) <= 5000:
+    if len(out) == (1 if D >= 0 else 0) and (D >= 0 or len(scheme.members) <= 200) \
+            and len(scheme.members) <= 5000:
         for quad in _unbraced_panels(scheme, result)[:3]:
             out.append(f"unbraced panel: {'–'.join(quad)} has no diagonal, so it can shear (a four-sided "
                        "panel of pin-ended members is a mechanism however many members the rest has)")
@@ -342,12 +343,12 @@ def _unbraced_panels(scheme: Scheme, result) -> list[tuple[str, str, str, str]]:
         L = math.hypot(xc - xa, yc - ya) or 1.0
         return abs((uc - ua) * (xc - xa) + (vc - va) * (yc - ya)) / L
 
-    for a in sorted(moving):
-        for b in sorted(adj.get(a, ())):
-            for c in sorted(adj.get(b, ())):
+    for a in moving:
+        for b in adj.get(a, ()):
+            for c in adj.get(b, ()):
                 if c == a:
                     continue
-                for d in sorted(adj.get(c, ())):
+                for d in adj.get(c, ()):
                     if d in (a, b) or a not in adj.get(d, ()):
                         continue
                     key = frozenset((a, b, c, d))
@@ -357,5 +358,13 @@ def _unbraced_panels(scheme: Scheme, result) -> list[tuple[str, str, str, str]]:
                     if c in adj.get(a, ()) or d in adj.get(b, ()):
                         continue  # braced
                     if max(rate(a, c), rate(b, d)) > 1e-6:
-                        found.append((a, b, c, d))
-    return found
+                        found.append(_canonical_cycle((a, b, c, d)))
+    return sorted(set(found))
+
+
+def _canonical_cycle(cyc: tuple[str, str, str, str]) -> tuple[str, str, str, str]:
+    """The same four-cycle whatever its start and direction (smallest id first)."""
+    k = cyc.index(min(cyc))
+    fwd = cyc[k:] + cyc[:k]
+    back = (fwd[0],) + tuple(reversed(fwd[1:]))
+    return min(fwd, back)
