@@ -233,8 +233,11 @@ class CanvasScene(QGraphicsScene):
     def model_rect(self) -> QRectF:
         """Scene rectangle of the drawing (for fit to view)."""
         s = self.doc.scheme
+        under = getattr(self, "underlay_item", None)  # app/underlay.py: a shown sketch is fitted too
+        under = under.sceneBoundingRect() if under is not None and under.isVisible() else None
         if not s.nodes:
-            return QRectF(-1, -6, 12, 8)
+            return under if under is not None else QRectF(-1, -6, 12, 8)
         x0, y0, x1, y1 = dr.scheme_bounds(s, extra=self.mode_item.displaced.values())
-        return QRectF(QPointF(x0, -y1), QPointF(x1, -y0))
+        r = QRectF(QPointF(x0, -y1), QPointF(x1, -y0))
+        return r if under is None else r.united(under)
 

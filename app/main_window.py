@@ -57,6 +57,9 @@ class MainWindow(QMainWindow):
         self._build_docks()
         self._build_actions()
         self._build_status()
+        from .underlay_panel import install_underlay  # the sketch underlay: menu, panel, canvas item
+
+        self.underlay = install_underlay(self)
         self.runner.result_ready.connect(self._on_result)
         self.runner.failed.connect(self._on_failed)
         self.runner.pending.connect(self._on_pending)
@@ -70,10 +73,20 @@ class MainWindow(QMainWindow):
         self.autosave_timer.setInterval(autosave_ms)
         self.autosave_timer.timeout.connect(self.autosave)
         self.autosave_timer.start()
+        # ---- redundancy, primary-structure and remedies views (app/insight_docks.py)
+        from .insight_docks import Insight
+
+        self.insight = Insight(self)
+        # ---- end redundancy views
         self.set_tool("select")
         self.resize(1440, 900)
         self._update_title()
         self._on_result(self.doc.revision, None)
+        # ---- motion strip: animated, scrubbable mechanisms (app/motion_strip.py)
+        from .motion_strip import install_motion_strip
+
+        self.motion = install_motion_strip(self, sync=sync_analysis)
+        # ---- end motion strip
 
     # ------------------------------------------------------------------ layout
     def _build_docks(self) -> None:
@@ -132,6 +145,16 @@ class MainWindow(QMainWindow):
         fm.addSeparator()
         fm.addAction(self._action("Export &PNG\u2026", lambda: self.export("png")))
         fm.addAction(self._action("Export S&VG\u2026", lambda: self.export("svg")))
+        # ---- DXF import / export and the PDF check report (app/dxf_import_dialog.py, app/report_action.py)
+        from .dxf_import_dialog import DxfActions
+        from .report_action import ReportAction
+
+        fm.addSeparator()
+        self.dxf = DxfActions(self)
+        fm.addActions(self.dxf.actions)
+        self.report_action = ReportAction(self)
+        fm.addAction(self.report_action.action)
+        # ---- end DXF / report
         fm.addSeparator()
         fm.addAction(self._action("&Quit", self.close, QKeySequence.Quit))
         self._refresh_recent()
@@ -398,6 +421,7 @@ class MainWindow(QMainWindow):
         from kinestat.core.io import atomic_write_text
 
         try:
+            self.underlay.relink_for(path)  # the underlay image path is relative to the scheme file's folder
             atomic_write_text(path, dumps(self.doc.scheme))
         except OSError as exc:
             self.show_error("Cannot save", f"{path}: {exc.strerror or exc}")
