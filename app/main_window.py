@@ -73,20 +73,10 @@ class MainWindow(QMainWindow):
         self.autosave_timer.setInterval(autosave_ms)
         self.autosave_timer.timeout.connect(self.autosave)
         self.autosave_timer.start()
-        # ---- redundancy, primary-structure and remedies views (app/insight_docks.py)
-        from .insight_docks import Insight
-
-        self.insight = Insight(self)
-        # ---- end redundancy views
         self.set_tool("select")
         self.resize(1440, 900)
         self._update_title()
         self._on_result(self.doc.revision, None)
-        # ---- motion strip: animated, scrubbable mechanisms (app/motion_strip.py)
-        from .motion_strip import install_motion_strip
-
-        self.motion = install_motion_strip(self, sync=sync_analysis)
-        # ---- end motion strip
 
     # ------------------------------------------------------------------ layout
     def _build_docks(self) -> None:
