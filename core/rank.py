@@ -287,7 +287,7 @@ def decide_rank(A: sp.csc_matrix, want_mech: bool = True, want_stress: bool = Fa
     """Pick the route by size and return the rank decision."""
     rows, cols = A.shape
     small = rows * cols <= DENSE_MAX_ENTRIES or rows == 0 or cols == 0
-    if small or (want_stress and cols <= 3000):
+    if small:
         return dense_rank(A, want_stress=True)  # the full SVD gives both bases at once
     return sparse_rank(A, want_mech=want_mech)
 
@@ -295,24 +295,28 @@ def decide_rank(A: sp.csc_matrix, want_mech: bool = True, want_stress: bool = Fa
 def null_space_basis(A: sp.spmatrix, dim: int) -> np.ndarray:
     """Orthonormal basis of null(A) with known dimension ``dim`` (states of self-stress).
 
-    Dense SVD for moderate sizes; for large A, block inverse iteration on A^T A.
+    Small A: dense SVD.  Large A: the orthogonal projector onto null(A),
+    P = I - A^T (A A^T)^+ A, applied to ``dim`` random vectors with one sparse
+    factorisation of K + delta I (delta tiny; the right-hand sides lie in range(A), so the
+    shift only touches the mechanisms) and one step of refinement, then orthonormalised
+    (a randomised range finder: N. Halko, P.-G. Martinsson & J. A. Tropp (2011), SIAM
+    Review 53(2)).
     """
     rows, cols = A.shape
     if dim == 0:
         return np.zeros((cols, 0))
-    if cols <= 4000:
+    if rows * cols <= 4 * DENSE_MAX_ENTRIES or cols <= 400:
         M = A.toarray()
         _, _, Vt = la.svd(M, full_matrices=True)
         return Vt[cols - dim:, :].T
-    G = (A.T @ A).tocsc()
-    smax = _sigma_max(A)
-    shift = (K_RTOL * smax) ** 2
-    lu = spla.splu((G + shift * sp.identity(cols, format="csc")).tocsc())
+    A = sp.csc_matrix(A)
+    K = (A @ A.T).tocsc()
+    smax = _sigma_max(A, K)
+    delta = (K_RTOL * smax) ** 2
+    lu = spla.splu((K + delta * sp.identity(rows, format="csc")).tocsc(), permc_spec="COLAMD")
     rng = np.random.default_rng(7)
-    X, _ = np.linalg.qr(rng.standard_normal((cols, dim + 4)))
-    for _ in range(6):
-        X, _ = np.linalg.qr(lu.solve(X))
-    _, s, Vt = la.svd(A @ X, full_matrices=False)
-    Z = X @ Vt.T[:, ::-1][:, :dim]
-    Z, _ = np.linalg.qr(Z)
-    return Z
+    X = rng.standard_normal((cols, dim))
+    for _ in range(2):  # projection, then one refinement step
+        X = X - A.T @ lu.solve(np.asarray(A @ X))
+    # P R for a Gaussian R spans null(A) with a condition number of order sqrt(dim)
+    return _orth(X)
