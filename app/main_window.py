@@ -73,6 +73,11 @@ class MainWindow(QMainWindow):
         self.autosave_timer.setInterval(autosave_ms)
         self.autosave_timer.timeout.connect(self.autosave)
         self.autosave_timer.start()
+        # ---- redundancy, primary-structure and remedies views (app/insight_docks.py)
+        from .insight_docks import Insight
+
+        self.insight = Insight(self)
+        # ---- end redundancy views
         self.set_tool("select")
         self.resize(1440, 900)
         self._update_title()
