@@ -82,6 +82,11 @@ class MainWindow(QMainWindow):
         self.resize(1440, 900)
         self._update_title()
         self._on_result(self.doc.revision, None)
+        # ---- motion strip: animated, scrubbable mechanisms (app/motion_strip.py)
+        from .motion_strip import install_motion_strip
+
+        self.motion = install_motion_strip(self, sync=sync_analysis)
+        # ---- end motion strip
 
     # ------------------------------------------------------------------ layout
     def _build_docks(self) -> None:
