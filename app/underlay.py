@@ -37,7 +37,7 @@ from kinestat.core.underlay import (BLOCK_KEY, CalibrationError, Underlay, missi
 
 from . import drawing as dr
 from .document import new_gesture
-from .tools import Tool, _fmt, paint_label
+from .tools import Tool, _fmt, paint_label, parse_entry
 
 #: below every scheme item (members are at z 10, the mechanism shape at 5)
 Z_UNDERLAY = -100
@@ -182,7 +182,8 @@ class PickTool(Tool):
 
 
 class MoveTool(Tool):
-    """Drag the underlay image; one drag is one undo step."""
+    """Drag the underlay image (one drag is one undo step), or click a point of it and type
+    where that point belongs ("x,y", Enter)."""
 
     name = "underlay_move"
     cursor = Qt.SizeAllCursor
@@ -191,12 +192,17 @@ class MoveTool(Tool):
         super().__init__(ctx)
         self.ctl = controller
         self._drag: tuple[int, tuple[float, float], Underlay] | None = None
+        self._moved = False
+        #: image pixel clicked last (the point a typed "x,y" places)
+        self.anchor: tuple[float, float] | None = None
 
     def hint(self) -> str:
-        return "Drag the underlay image to move it; Esc ends"
+        return ("Drag the underlay image to move it, or click a point of it and type where it belongs "
+                "(x,y) and Enter; Esc ends")
 
     def cancel(self) -> None:
         self._drag = None
+        self.anchor = None
 
     def press(self, ev, x, y) -> None:
         u = self.ctl.underlay()
@@ -206,22 +212,60 @@ class MoveTool(Tool):
             self.ctx.message("The underlay is locked: unlock it to move it")
             return
         self._drag = (new_gesture(), (x, y), u)
+        self._moved = False
 
     def move(self, ev, x, y) -> None:
         if self._drag is None or not ev.buttons() & Qt.LeftButton:
             return
         g, (x0, y0), u0 = self._drag
+        if not self._moved and math.hypot(x - x0, y - y0) < 3 * self.view.units_per_px():
+            return
+        self._moved = True
         moved = replace(u0, origin=(u0.origin[0] + x - x0, u0.origin[1] + y - y0))
         self.ctl.commit("Move underlay", moved, gesture=g)
 
     def release(self, ev, x, y) -> None:
+        if self._drag is not None and not self._moved:
+            self.anchor = self._drag[2].to_image(*self._drag[1])
+            self.ctx.message("Type where this point of the image belongs (x,y) and press Enter")
+        elif self._moved:
+            self.anchor = None
         self._drag = None
+
+    def accepts_entry(self) -> bool:
+        return self.anchor is not None
+
+    def entry_label(self) -> str:
+        return f"put the point at x,y ({self.doc.scheme.units}):"
+
+    def typed(self, text: str) -> bool:
+        try:
+            vals = parse_entry(text)
+        except ValueError:
+            vals = []
+        if len(vals) != 2:
+            self.ctx.message(f'"{text}": type the point as x,y (for example 0,0)')
+            return False
+        return self.ctl.place(self.anchor, (vals[0], vals[1]))
 
     def key(self, ev) -> bool:
         if ev.key() == Qt.Key_Escape:
             self.ctl.end_pick("")
             return True
         return False
+
+    def paint_overlay(self, painter, view) -> None:
+        u = self.ctl.underlay()
+        if self.anchor is None or u is None:
+            return
+        x, y = u.to_scheme(*self.anchor)
+        p = view.map_model(x, y)
+        painter.setBrush(Qt.NoBrush)
+        painter.setPen(dr.pen(dr.PALETTE.mechanism, 1.8))
+        painter.drawEllipse(p, 6.0, 6.0)
+        painter.drawLine(QPointF(p.x() - 10, p.y()), QPointF(p.x() + 10, p.y()))
+        painter.drawLine(QPointF(p.x(), p.y() - 10), QPointF(p.x(), p.y() + 10))
+        paint_label(painter, p, f"now x = {_fmt(x)}  y = {_fmt(y)}  \u2014 type x,y, Enter", dr.PALETTE.mechanism)
 
 
 # ====================================================================== controller
@@ -461,6 +505,21 @@ class UnderlayController(QObject):
         self.message(f"Underlay straightened: rotated {new.rotation_deg:.3f}\u00b0")
         return True
 
+    def place(self, pixel, at) -> bool:
+        """Move the image so that image ``pixel`` lies at scheme point ``at``."""
+        u = self._editable("Move the underlay")
+        if u is None:
+            return False
+        try:
+            new = u.placed(pixel, at)
+        except CalibrationError as exc:
+            self.message(f"Move the underlay: {exc}")
+            return False
+        self.commit("Place underlay", new)
+        self.message(f"Underlay placed: the picked point is at x = {_fmt(at[0])}, y = {_fmt(at[1])} "
+                     f"{self.doc.scheme.units}")
+        return True
+
     def set_opacity(self, opacity: float, gesture: int | None = None) -> bool:
         u = self.underlay()
         if u is None:
@@ -504,15 +563,17 @@ class UnderlayController(QObject):
         return True
 
     def finish_scale(self, p, q, distance: float) -> bool:
-        ok = self.apply_scale(p, q, distance)
-        if ok:
-            self.end_pick(None)
-        return ok
+        """The typed distance for the two picked points: back to the previous tool, then scale
+        (a distance that is not positive keeps the points for another try)."""
+        if not (math.isfinite(distance) and distance > 0):
+            self.message(f"Distance {distance:g}: must be a positive number; type it again")
+            return False
+        self.end_pick(None)
+        return self.apply_scale(p, q, distance)
 
     def finish_straighten(self, p, q) -> bool:
-        ok = self.apply_straighten(p, q)
         self.end_pick(None)
-        return ok
+        return self.apply_straighten(p, q)
 
     def end_pick(self, text: str | None) -> None:
         """Leave the pick / move tool for the tool used before it."""

@@ -290,6 +290,32 @@ def test_a_picked_line_straightens_the_image(qtbot, win, tmp_path):
     assert math.hypot(x1 - x0, y1 - y0) == pytest.approx(math.dist(a, b), abs=1e-9)
 
 
+def test_move_by_drag_and_by_a_typed_point(qtbot, win, tmp_path):
+    from app_helpers import drag
+
+    img = sketch_png(tmp_path / "sketch.png")
+    u0 = calibrated(win, img, scale=0.01, origin=(0.0, 6.0), rotation_deg=3.0)
+    steps = win.doc.undo_stack.count()
+    assert win.underlay.start_pick("move")
+    a, b = picked(win.view, 2.0, 2.0), picked(win.view, 3.5, 1.0)
+    drag(qtbot, win.view, (2.0, 2.0), (3.5, 1.0))
+    u1 = underlay_of(win.doc.scheme)
+    # a drag is a translation by the drag vector: scale and rotation unchanged, one step
+    assert u1.origin == pytest.approx((u0.origin[0] + b[0] - a[0], u0.origin[1] + b[1] - a[1]), abs=1e-9)
+    assert (u1.scale, u1.rotation_deg) == (u0.scale, u0.rotation_deg)
+    assert win.doc.undo_stack.count() == steps + 1
+    # click a point of the image, type where it belongs
+    c = picked(win.view, 4.0, 3.0)
+    click(qtbot, win.view, 4.0, 3.0)
+    type_text(qtbot, win.view, "0,0")
+    qtbot.keyClick(win.view, Qt.Key_Return)
+    u2 = underlay_of(win.doc.scheme)
+    assert u2.to_scheme(*u1.to_image(*c)) == pytest.approx((0.0, 0.0), abs=1e-9)
+    assert (u2.scale, u2.rotation_deg) == (u0.scale, u0.rotation_deg)
+    qtbot.keyClick(win.view, Qt.Key_Escape)
+    assert win.view.tool is win.tools["select"]
+
+
 def test_locked_underlay_is_not_recalibrated(qtbot, win, tmp_path):
     img = sketch_png(tmp_path / "sketch.png")
     calibrated(win, img, scale=0.01, origin=(0.0, 6.0))
