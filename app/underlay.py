@@ -474,51 +474,43 @@ class UnderlayController(QObject):
             return False
         return self.commit("Relink underlay image", replace(u, image=rel))
 
-    def apply_scale(self, p_model, q_model, distance: float) -> bool:
-        """Scale from two canvas points (scheme coordinates) that are ``distance`` apart."""
-        u = self._editable("Set the underlay's scale")
+    def _calibrate(self, what: str, step: str, build, said) -> bool:
+        """One calibration step: ``build(underlay)`` gives the new underlay (or raises
+        CalibrationError), ``said(new)`` the status line."""
+        u = self._editable(what)
         if u is None:
             return False
-        p, q = u.to_image(*p_model), u.to_image(*q_model)
         try:
-            new = u.with_scale_from_points(p, q, distance)
+            new = build(u)
         except CalibrationError as exc:
-            self.message(f"Underlay scale: {exc}")
+            self.message(f"{what}: {exc}")
             return False
-        self.commit("Set underlay scale", new)
-        self.message(f"Underlay scale set: 1 px = {new.scale:.6g} {self.doc.scheme.units} "
-                     f"({_fmt(distance)} {self.doc.scheme.units} between the picked points)")
+        self.commit(step, new)
+        self.message(said(new))
         return True
+
+    def apply_scale(self, p_model, q_model, distance: float) -> bool:
+        """Scale from two canvas points (scheme coordinates) that are ``distance`` apart."""
+        units = self.doc.scheme.units
+        return self._calibrate(
+            "Set the underlay's scale", "Set underlay scale",
+            lambda u: u.with_scale_from_points(u.to_image(*p_model), u.to_image(*q_model), distance),
+            lambda new: (f"Underlay scale set: 1 px = {new.scale:.6g} {units} "
+                         f"({_fmt(distance)} {units} between the picked points)"))
 
     def apply_straighten(self, p_model, q_model) -> bool:
         """Rotate the image so the picked line (two canvas points) is horizontal."""
-        u = self._editable("Straighten the underlay")
-        if u is None:
-            return False
-        p, q = u.to_image(*p_model), u.to_image(*q_model)
-        try:
-            new = u.with_rotation_from_line(p, q)
-        except CalibrationError as exc:
-            self.message(f"Straighten the underlay: {exc}")
-            return False
-        self.commit("Straighten underlay", new)
-        self.message(f"Underlay straightened: rotated {new.rotation_deg:.3f}\u00b0")
-        return True
+        return self._calibrate(
+            "Straighten the underlay", "Straighten underlay",
+            lambda u: u.with_rotation_from_line(u.to_image(*p_model), u.to_image(*q_model)),
+            lambda new: f"Underlay straightened: rotated {new.rotation_deg:.3f}\u00b0")
 
     def place(self, pixel, at) -> bool:
         """Move the image so that image ``pixel`` lies at scheme point ``at``."""
-        u = self._editable("Move the underlay")
-        if u is None:
-            return False
-        try:
-            new = u.placed(pixel, at)
-        except CalibrationError as exc:
-            self.message(f"Move the underlay: {exc}")
-            return False
-        self.commit("Place underlay", new)
-        self.message(f"Underlay placed: the picked point is at x = {_fmt(at[0])}, y = {_fmt(at[1])} "
-                     f"{self.doc.scheme.units}")
-        return True
+        units = self.doc.scheme.units
+        return self._calibrate(
+            "Move the underlay", "Place underlay", lambda u: u.placed(pixel, at),
+            lambda new: f"Underlay placed: the picked point is at x = {_fmt(at[0])}, y = {_fmt(at[1])} {units}")
 
     def set_opacity(self, opacity: float, gesture: int | None = None) -> bool:
         u = self.underlay()
