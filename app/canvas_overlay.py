@@ -141,7 +141,33 @@ class Overlay:
             layer.update()
 
 
+def add_scene_polyline(path: QPainterPath, scheme: Scheme, member) -> None:
+    """Append a member's centre line to ``path`` in scene coordinates (model y flipped)."""
+    pa, pb = scheme.node_xy(member.start), scheme.node_xy(member.end)
+    pts = arc_points(pa, pb, member.rise) if member.rise else [pa, pb]
+    path.moveTo(pts[0][0], -pts[0][1])
+    for x, y in pts[1:]:
+        path.lineTo(x, -y)
+
+
 # ---------------------------------------------------------------------- shared symbols
+_MARKERS: dict = {}
+
+
+def unstable_markers(painter: QPainter, centres, size: float = 15.0) -> None:
+    """The unstable-verdict triangle of :func:`.drawing.draw_verdict_marker` at many device
+    points: drawn once into a pixmap and stamped (hundreds of critical members stay cheap)."""
+    from .verdict_panel import marker_pixmap
+
+    dpr = max(1.0, float(painter.device().devicePixelRatioF())) if painter.device() else 1.0
+    pm = _MARKERS.get((size, dpr))
+    if pm is None:
+        pm = _MARKERS[(size, dpr)] = marker_pixmap("unstable", int(size), dpr)
+    h = size / 2
+    for c in centres:
+        painter.drawPixmap(QPointF(c.x() - h, c.y() - h), pm)
+
+
 def ramp_colour(t: float, pal: dr.Palette = dr.PALETTE) -> QColor:
     """Sequential colour for t in [0, 1]: light grey-blue -> sky blue -> blue -> ink.
 

@@ -11,20 +11,23 @@ from __future__ import annotations
 
 import math
 
-from PySide6.QtCore import QPointF, QRectF, Qt
-from PySide6.QtGui import QBrush, QColor, QFont, QLinearGradient, QPainter, QPolygonF
+from PySide6.QtCore import QLineF, QPointF, QRectF, Qt
+from PySide6.QtGui import QBrush, QColor, QFont, QLinearGradient, QPainter, QPainterPath, QPolygonF
 from PySide6.QtWidgets import (QAbstractItemView, QCheckBox, QComboBox, QHeaderView, QLabel, QSizePolicy,
                                QTableWidget, QTableWidgetItem, QWidget)
 
 from kinestat.core.model import Scheme
 
 from . import drawing as dr
-from .canvas_overlay import DeviceMap, Overlay, badge, ramp_colour, ramp_width, text_label
+from .canvas_overlay import (DeviceMap, Overlay, add_scene_polyline, badge, ramp_colour, ramp_width, text_label,
+                             unstable_markers)
 from .insight_panel import InsightPanel
 
 LAYER = "redundancy"
 #: a force below this (states are scaled to a largest entry of 1) is no force
 FORCE_EPS = 1e-9
+#: shading steps: members of one step are drawn as one path
+SHADES = 24
 
 
 def scale_top(values) -> float:
@@ -180,6 +183,8 @@ class RedundancyView(InsightPanel):
         self.state_index = -1
         self.hover_member: str | None = None
         self.top = 1.0
+        #: (scheme, result, shading paths) of the last paint
+        self._shades = None
         lay = self.box
         self.show_box = QCheckBox("Shade the canvas")
         self.show_box.setChecked(True)
@@ -201,10 +206,7 @@ class RedundancyView(InsightPanel):
         self.table.setEditTriggers(QAbstractItemView.NoEditTriggers)
         self.table.setSelectionBehavior(QAbstractItemView.SelectRows)
         self.table.setSelectionMode(QAbstractItemView.SingleSelection)
-        hh = self.table.horizontalHeader()
-        hh.setSectionResizeMode(0, QHeaderView.ResizeToContents)
-        hh.setSectionResizeMode(1, QHeaderView.ResizeToContents)
-        hh.setSectionResizeMode(2, QHeaderView.Stretch)
+        self._size_columns()
         self.table.itemSelectionChanged.connect(self._on_row_selected)
         lay.addWidget(self.table, 1)
         self.show_result(None)
@@ -288,7 +290,12 @@ class RedundancyView(InsightPanel):
         rows.sort(key=lambda r: (r[0] != "member", -(r[3] or 0.0), r[1]))
         t = self.table
         t.blockSignals(True)
-        t.setSortingEnabled(False)
+        t.setUpdatesEnabled(False)
+        hh = t.horizontalHeader()
+        # sized to the contents once, not on every cell (that is quadratic in the rows)
+        for col in range(3):
+            hh.setSectionResizeMode(col, QHeaderView.Fixed)
+        t.setRowCount(0)
         t.setRowCount(len(rows))
         for k, (kind, key, label, v, chk) in enumerate(rows):
             name = QTableWidgetItem(label if kind == "member" else f"{label} (support)")
@@ -303,7 +310,15 @@ class RedundancyView(InsightPanel):
             if status == "critical":
                 st.setForeground(QColor(dr.PALETTE.unstable))
             t.setItem(k, 2, st)
+        self._size_columns()
+        t.setUpdatesEnabled(True)
         t.blockSignals(False)
+
+    def _size_columns(self) -> None:
+        hh = self.table.horizontalHeader()
+        hh.setSectionResizeMode(0, QHeaderView.ResizeToContents)
+        hh.setSectionResizeMode(1, QHeaderView.ResizeToContents)
+        hh.setSectionResizeMode(2, QHeaderView.Stretch)
 
     # ------------------------------------------------------------------ interaction
     def _on_show_toggled(self, on: bool) -> None:
@@ -390,20 +405,40 @@ class RedundancyView(InsightPanel):
         self.overlay.set_painters(LAYER, self._paint_under, self._paint_over)
 
     def _paint_under(self, painter: QPainter, T: DeviceMap, scheme: Scheme) -> None:
-        red = self.result.redundancy
         alpha = 90 if self.is_stale() else 255
         st = self.current_state()
         if st is not None:
             paint_state(painter, T, scheme, st, alpha)
             return
-        top = self.top
+        painter.setTransform(T.world)  # scene coordinates, cosmetic pens
+        for k, (lines, path) in sorted(self._shade_paths(scheme).items()):
+            t = k / SHADES
+            painter.setPen(dr.pen(ramp_colour(t).name(), ramp_width(t), alpha=alpha))
+            if lines:
+                painter.drawLines(lines)
+            if not path.isEmpty():
+                painter.drawPath(path)
+
+    def _shade_paths(self, scheme: Scheme) -> dict[int, tuple[list[QLineF], QPainterPath]]:
+        """Member lines in scene coordinates, one batch per shading step (kept until the
+        drawing or the result changes): straight members as lines, arcs as a path."""
+        if self._shades is not None and self._shades[0] is scheme and self._shades[1] is self.result:
+            return self._shades[2]
+        red = self.result.redundancy
+        out: dict[int, tuple[list[QLineF], QPainterPath]] = {}
         for mid, v in red.members.items():
             m = scheme.members.get(mid)
             if m is None or m.start not in scheme.nodes or m.end not in scheme.nodes:
                 continue
-            t = v / top
-            painter.setPen(dr.pen(ramp_colour(t).name(), ramp_width(t), alpha=alpha))
-            painter.drawPath(T.member_path(scheme, m))
+            k = min(SHADES, max(0, round(v / self.top * SHADES)))
+            lines, path = out.setdefault(k, ([], QPainterPath()))
+            if m.rise:
+                add_scene_polyline(path, scheme, m)
+            else:
+                (x0, y0), (x1, y1) = scheme.node_xy(m.start), scheme.node_xy(m.end)
+                lines.append(QLineF(x0, -y0, x1, -y1))
+        self._shades = (scheme, self.result, out)
+        return out
 
     def _paint_over(self, painter: QPainter, T: DeviceMap, scheme: Scheme) -> None:
         pal = dr.PALETTE
@@ -412,6 +447,7 @@ class RedundancyView(InsightPanel):
         if st is not None:
             paint_state_marks(painter, T, scheme, st)
         elif res.criticality is not None:
+            marks = []
             for mid in res.criticality.critical_members():
                 m = scheme.members.get(mid)
                 if m is None or m.start not in scheme.nodes or m.end not in scheme.nodes:
@@ -421,12 +457,13 @@ class RedundancyView(InsightPanel):
                 nx, ny = math.sin(ang), -math.cos(ang)
                 if ny > 0:
                     nx, ny = -nx, -ny
-                dr.draw_verdict_marker(painter, "unstable", QPointF(p.x() + 10 * nx, p.y() + 10 * ny), 5.5)
+                marks.append(QPointF(p.x() + 10 * nx, p.y() + 10 * ny))
             for key in res.criticality.critical_restraints():
                 nid = key.split(":", 1)[0]
                 if nid in scheme.nodes:
                     p = T.map(*scheme.node_xy(nid))
-                    dr.draw_verdict_marker(painter, "unstable", QPointF(p.x() + 16, p.y() - 14), 5.5)
+                    marks.append(QPointF(p.x() + 16, p.y() - 14))
+            unstable_markers(painter, marks)
         mid = self.hover_member
         if mid is not None and mid in scheme.members and res.redundancy is not None:
             m = scheme.members[mid]
