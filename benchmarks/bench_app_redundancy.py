@@ -38,11 +38,11 @@ HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
 sys.path.insert(0, str(HERE.parent / "tests"))
 
+from bench_app_drag import _window  # noqa: E402
 from bench_redundancy import scheme  # noqa: E402
-from PySide6.QtCore import QElapsedTimer, QPointF, QSettings, QTimer  # noqa: E402
+from PySide6.QtCore import QElapsedTimer, QTimer  # noqa: E402
 from PySide6.QtWidgets import QApplication  # noqa: E402
 
-VIEW_OF = {"redundancy": "redundancy", "primary": "primary", "remedies": "remedies"}
 
 
 def best_of(fn, repeat: int):
@@ -55,15 +55,7 @@ def best_of(fn, repeat: int):
 
 
 def window(tmp: str, sync: bool):
-    from kinestat.app.main_window import MainWindow
-
-    s = QSettings(os.path.join(tmp, "s.ini"), QSettings.IniFormat)
-    s.setValue("welcomed", True)
-    w = MainWindow(s, os.path.join(tmp, "rec.json"), sync_analysis=sync)
-    w.resize(1400, 900)
-    w.show()
-    QApplication.processEvents()
-    return w
+    return _window(tmp, sync, live=True)  # the drag benchmark's window: 1400 x 900, shown
 
 
 def refresh_ms(w, name: str, res, repeat: int) -> float:
