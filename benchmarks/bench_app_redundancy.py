@@ -44,7 +44,6 @@ from PySide6.QtCore import QElapsedTimer, QTimer  # noqa: E402
 from PySide6.QtWidgets import QApplication  # noqa: E402
 
 
-
 def best_of(fn, repeat: int):
     best, out = float("inf"), None
     for _ in range(repeat):
