@@ -292,3 +292,26 @@ def test_export_writes_a_numbered_png_series_with_the_caution(qtbot, tmp_path):
     assert len(short) == ctl.data.frames < n
     assert len(list(out.glob("motion_*.png"))) == len(short)
     assert "linearised" in (out / "motion_record.txt").read_text(encoding="utf-8")
+
+
+def test_a_long_playback_does_not_abort_the_interpreter():
+    # PySide6 6.12 on CPython 3.11: Signal.emit hands back True without a reference, and the
+    # strip emits once per frame; without app.qt_compat's reserve, 200 000 emits (under two
+    # hours of playback) exhaust True's count and CPython aborts with "bool_dealloc" at exit
+    # (CPython's own check; True is immortal from 3.12 on, PEP 683, where this passes trivially)
+    import subprocess
+    import sys
+
+    code = ("import os\n"
+            "os.environ['QT_QPA_PLATFORM'] = 'offscreen'\n"
+            "from PySide6.QtCore import QObject, Signal\n"
+            "import kinestat.app.motion_strip\n"
+            "class O(QObject):\n"
+            "    frame = Signal(int)\n"
+            "o = O()\n"
+            "o.frame.connect(lambda k: None)\n"
+            "for k in range(200000):\n"
+            "    o.frame.emit(k)\n"
+            "print('alive')\n")
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert r.returncode == 0 and r.stdout.strip() == "alive", r.stderr[-500:]
