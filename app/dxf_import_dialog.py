@@ -37,6 +37,8 @@ from . import drawing as dr
 DXF_FILTER = "DXF drawing (*.dxf);;All files (*)"
 #: QSettings key holding {layer name (case-folded): kind}
 SETTINGS_KEY = "dxf/layer_kinds"
+#: entity types that can become members (other types are skipped whatever the layer's choice)
+LINE_WORK = ("LINE", "LWPOLYLINE", "POLYLINE", "ARC")
 #: what the kinestat layers hold (their choice is fixed: they are read as kinestat wrote them)
 _BUILTIN_WORDS = {"skip": "kinestat marks and notes", "beam": "beam (kinestat layer)", "bar": "bar (kinestat layer)"}
 
@@ -64,6 +66,10 @@ class LayerInfo:
     types: tuple[tuple[str, int], ...]
     #: "on", "off" or "frozen"
     state: str = "on"
+
+    @property
+    def has_line_work(self) -> bool:
+        return any(t in LINE_WORK for t, _ in self.types)
 
     @property
     def builtin(self) -> str | None:
@@ -113,6 +119,8 @@ def layer_mapping(layers: list[LayerInfo], choices: dict[str, str]) -> dict[str,
         kind = choices.get(info.name, info.auto_kind())
         if info.builtin is not None and kind == info.builtin:
             continue
+        if not info.has_line_work and info.builtin is None:
+            continue  # nothing to choose: its entities are skipped with their own reason
         out[info.name] = kind
     return out
 
@@ -186,6 +194,9 @@ class DxfImportDialog(QDialog):
             if info.builtin is not None:
                 combo.addItem(_BUILTIN_WORDS[info.builtin], info.builtin)
                 combo.setEnabled(False)
+            elif not info.has_line_work:
+                combo.addItem("no line work", "skip")
+                combo.setEnabled(False)
             else:
                 for k in LAYER_CHOICES:
                     combo.addItem(k, k)
@@ -245,7 +256,7 @@ class DxfImportDialog(QDialog):
     def set_choice(self, layer: str, kind: str) -> None:
         combo = self.combos[layer]
         if not combo.isEnabled():
-            raise ValueError(f'layer "{layer}" is a kinestat layer: its choice is fixed')
+            raise ValueError(f'layer "{layer}": its choice is fixed ({combo.currentText()})')
         combo.setCurrentIndex(LAYER_CHOICES.index(kind))
 
     def set_units(self, units: str) -> None:
@@ -286,7 +297,7 @@ class DxfImportDialog(QDialog):
     def remember(self) -> None:
         """Keep the choices of the ordinary layers for the next import (QSettings)."""
         remember_kinds(self.settings, {info.name: self.combos[info.name].currentData()
-                                       for info in self.layers if info.builtin is None})
+                                       for info in self.layers if self.combos[info.name].isEnabled()})
 
 
 # ---------------------------------------------------------------------------- window actions

@@ -27,7 +27,7 @@ from dataclasses import replace
 from pathlib import Path
 from typing import Callable
 
-from PySide6.QtCore import QObject, QPointF, QRectF, Qt, Signal
+from PySide6.QtCore import QObject, QPointF, QRectF, Qt, QTimer, Signal
 from PySide6.QtGui import QImageReader, QPixmap, QTransform
 from PySide6.QtWidgets import QGraphicsPixmapItem, QMessageBox
 
@@ -291,7 +291,7 @@ class UnderlayController(QObject):
         self.notice: QMessageBox | None = None
         #: folder an unsaved scheme's image path is relative to
         self._unsaved_base: Path | None = None
-        self._synced: tuple[object, Path | None] | None = None
+        self._synced: tuple | None = None
         self._tool: Tool | None = None
         self._prev_tool = "select"
         scene.underlay_item = None
@@ -337,9 +337,9 @@ class UnderlayController(QObject):
 
     def sync(self, *_args) -> None:
         raw = self.doc.scheme.extra.get(BLOCK_KEY)
-        key = (raw, self.image_file() if raw is not None else None)
-        if self._synced is not None and self._synced[0] == key[0] and self._synced[1] == key[1]:
-            return
+        key = (raw, self.doc.path, self._unsaved_base)
+        if self._synced is not None and all(a is b or a == b for a, b in zip(self._synced, key)):
+            return  # every edit of the drawing passes here: keep it cheap
         self._synced = key
         u = self.underlay()
         if u is None:
@@ -386,7 +386,10 @@ class UnderlayController(QObject):
         self.image_size = None
 
     def _announce_missing(self, text: str) -> None:
-        self.message(text[0].upper() + text[1:])
+        line = text[0].upper() + text[1:]
+        self.message(line)
+        # and again once the action that opened the scheme has posted its own status line
+        QTimer.singleShot(0, lambda: self.missing == text and self.message(line))
         if self.notice is None:
             self.notice = QMessageBox(QMessageBox.Warning, "Underlay image missing", "", QMessageBox.Ok,
                                       self.parent_widget)

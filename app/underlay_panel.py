@@ -99,6 +99,9 @@ class UnderlayPanel(QWidget):
             self.status.setStyleSheet("")
         self.status.setText(text)
         has, usable = u is not None, u is not None and not self.ctl.missing
+        self.load_button.setText("Relink image\u2026" if has and self.ctl.missing else "Load image\u2026")
+        self.load_button.setToolTip("Pick the missing image file again; the calibration is kept"
+                                    if has and self.ctl.missing else "Put a sketch (PNG or JPEG) behind the canvas")
         for w in (self.opacity, self.lock_box, self.show_box, self.remove_button):
             w.setEnabled(has)
         for b in (self.scale_button, self.straighten_button, self.move_button):
@@ -162,7 +165,7 @@ def install_underlay(win) -> UnderlayController:
         win.menuBar().addMenu(menu)
 
     panel = UnderlayPanel(ctl)
-    panel.load_button.clicked.connect(lambda: pick_file(False))
+    panel.load_button.clicked.connect(lambda: pick_file(bool(ctl.missing and ctl.underlay() is not None)))
     dock = QDockWidget("Underlay", win)
     dock.setObjectName("underlay_dock")
     dock.setWidget(panel)

@@ -93,11 +93,13 @@ def test_dxf_import_through_the_dialog_with_a_layer_mapping(qtbot, win, tmp_path
         seen["layers"] = [i.name for i in dlg.layers]
         seen["units_note"] = dlg.units_note.text()
         seen["fixed"] = not dlg.combos["KINESTAT_SUPPORT"].isEnabled()
-        return choose({"CHORDS": "bar", "HANGER": "bar", "GRID": "skip", "NOTES": "skip"})(dlg)
+        seen["notes"] = (dlg.combos["NOTES"].isEnabled(), dlg.combos["NOTES"].currentText())
+        return choose({"CHORDS": "bar", "HANGER": "bar", "GRID": "skip"})(dlg)
 
     assert win.dxf.import_path(path, run_dialog=run)
     assert seen["layers"] == ["CHORDS", "HANGER", "GRID", "NOTES", "KINESTAT_SUPPORT"]
     assert "header" in seen["units_note"] and seen["fixed"]
+    assert seen["notes"] == (False, "no line work"), "a layer of text only has nothing to choose"
     s = win.doc.scheme
     # the hanger's foot splits the bottom chord: 4 joints, 5 bars, pin + roller = 3 reactions
     assert coords(s) == [(0, 0), (4, 0), (4, 3), (8, 0)]
@@ -111,7 +113,7 @@ def test_dxf_import_through_the_dialog_with_a_layer_mapping(qtbot, win, tmp_path
     assert src["layers"]["CHORDS"] == "bar" and src["layers"]["GRID"] == "skip"
     # the summary names what was skipped and why
     details = win.dxf.summary.detailedText()
-    assert 'layer "GRID" is mapped to skip' in details and "TEXT" in details
+    assert 'layer "GRID" is mapped to skip' in details and "TEXT is an annotation" in details
     assert win.dxf.summary.isVisible() and not win.dxf.summary.isModal()
     # one undoable step; undo gives the empty drawing back
     assert win.doc.undo_stack.count() == 1
@@ -129,7 +131,7 @@ def test_dxf_import_through_the_dialog_with_a_layer_mapping(qtbot, win, tmp_path
 
 def test_beams_by_default_make_the_truss_a_closed_frame(qtbot, win, tmp_path, shown):
     path = truss_dxf(tmp_path / "frame.dxf")
-    assert win.dxf.import_path(path, run_dialog=choose({"GRID": "skip", "NOTES": "skip"}))
+    assert win.dxf.import_path(path, run_dialog=choose({"GRID": "skip"}))
     s = win.doc.scheme
     assert {m.kind for m in s.members.values()} == {"beam"}
     # rigid-jointed closed triangles: each closed ring of beams adds 3 redundants (textbook
@@ -386,9 +388,11 @@ def test_a_missing_image_is_reported_and_everything_else_works(qtbot, win, tmp_p
     ctl = win.underlay
     assert ctl.missing and "gone.jpg" in ctl.missing and "missing" in ctl.missing
     assert str(tmp_path / "photos" / "gone.jpg") in ctl.missing, "says where it looked"
+    qtbot.waitUntil(lambda: "missing" in win.statusBar().currentMessage(), timeout=2000)
     assert any("missing" in m for m in messages)
     assert ctl.notice is not None and ctl.notice.isVisible() and not ctl.notice.isModal()
     assert ctl.item is None and "missing" in ctl.panel.status.text()
+    assert ctl.panel.load_button.text().startswith("Relink"), "the panel offers to pick the file again"
     assert win.verdict_text() == DETERMINATE
     # the block is kept as it was, and saving keeps it
     out = tmp_path / "beam_again.json"
