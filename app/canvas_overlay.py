@@ -61,6 +61,18 @@ class DeviceMap:
         mid = pts[len(pts) // 2] if len(pts) > 2 else QPointF((a.x() + b.x()) / 2, (a.y() + b.y()) / 2)
         return mid, math.atan2(b.y() - a.y(), b.x() - a.x())
 
+    def member_at(self, scheme: Scheme, member, frac: float) -> QPointF:
+        """Device point at fraction ``frac`` of the member's length from its start."""
+        pts = self.member_points(scheme, member)
+        seg = [math.hypot(b.x() - a.x(), b.y() - a.y()) for a, b in zip(pts, pts[1:])]
+        goal = frac * sum(seg)
+        for (a, b), d in zip(zip(pts, pts[1:]), seg):
+            if goal <= d and d > 0:
+                u = goal / d
+                return QPointF(a.x() + u * (b.x() - a.x()), a.y() + u * (b.y() - a.y()))
+            goal -= d
+        return pts[-1]
+
     def end_direction(self, scheme: Scheme, member, node_id: str) -> tuple[QPointF, float]:
         """Device point of a member end and the screen direction from it into the member."""
         pts = self.member_points(scheme, member)
@@ -206,14 +218,24 @@ def badge(painter: QPainter, centre: QPointF, text: str, colour: str, *, fill: s
     painter.drawText(r, Qt.AlignCenter, text)
 
 
-def text_label(painter: QPainter, at: QPointF, text: str, colour: str | None = None) -> None:
-    """Text on a paper-coloured box, its top-left corner at ``at``."""
+def text_label(painter: QPainter, at: QPointF, text: str, colour: str | None = None, max_width: int = 520) -> None:
+    """Text on a paper-coloured box, its top-left corner at ``at`` (moved inside the device,
+    the text elided to ``max_width`` pixels)."""
     pal = dr.PALETTE
     f = QFont()
     f.setPixelSize(12)
     painter.setFont(f)
     fm = painter.fontMetrics()
-    r = QRectF(at.x(), at.y(), fm.horizontalAdvance(text) + 10, fm.height() + 4)
+    text = fm.elidedText(text, Qt.ElideRight, max_width)
+    w, h = fm.horizontalAdvance(text) + 10, fm.height() + 4
+    x, y = at.x(), at.y()
+    dev = painter.device()
+    if dev is not None:
+        dw = dev.width() / max(1.0, dev.devicePixelRatioF())
+        dh = dev.height() / max(1.0, dev.devicePixelRatioF())
+        x = min(max(x, 4.0), dw - w - 4.0)
+        y = min(max(y, 4.0), dh - h - 4.0)
+    r = QRectF(x, y, w, h)
     c = QColor(pal.paper)
     c.setAlpha(235)
     painter.setPen(dr.pen(colour or pal.muted, 1.0))

@@ -85,6 +85,7 @@ class Insight(QObject):
         self.primary.open_requested.connect(self.open_primary)
         self.remedies.message.connect(lambda text: window.statusBar().showMessage(text, 8000))
         window.view.cursor_moved.connect(self._on_cursor)
+        window.view.zoom_changed.connect(lambda _z: self.overlay.refresh())  # room for pixel-sized marks
         window.installEventFilter(self)
         self._build_menu()
 

@@ -30,11 +30,15 @@ FORCE_EPS = 1e-9
 SHADES = 24
 
 
+#: tops the shading scale can have (a bar holds at most 1, a beam up to 3)
+SCALE_TOPS = (0.1, 0.2, 0.25, 0.5, 1.0, 1.5, 2.0, 2.5, 3.0)
+
+
 def scale_top(values) -> float:
-    """Top of the shading scale: 1 (a bar holds at most 1), or the largest value rounded up
-    to a half (a beam holds up to 3)."""
+    """Top of the shading scale: the smallest of :data:`SCALE_TOPS` at or above the largest
+    value, so that a scheme whose redundancy is spread thin still shows its differences."""
     mx = max(values, default=0.0)
-    return 1.0 if mx <= 1.0 + 1e-9 else math.ceil(mx * 2.0 - 1e-9) / 2.0
+    return next((t for t in SCALE_TOPS if mx <= t + 1e-9), math.ceil(mx))
 
 
 def state_style(state, member_id: str) -> str:
@@ -57,7 +61,8 @@ def state_words(state) -> str:
         st = state_style(state, mid)
         if st:
             groups[st].append(mid)
-    parts = [f"{k}: {', '.join(v)}" for k, v in groups.items() if v]
+    names = {"tension": "tension", "compression": "compression", "bending": "moments only"}
+    parts = [f"{names[k]}: {', '.join(v)}" for k, v in groups.items() if v]
     if state.reactions:
         parts.append("reactions at " + ", ".join(state.reactions))
     return "; ".join(parts) or "no forces"
@@ -91,7 +96,7 @@ def paint_state_marks(painter: QPainter, T: DeviceMap, scheme: Scheme, state) ->
         st = state_style(state, mid)
         if m is None or not st or m.start not in scheme.nodes or m.end not in scheme.nodes:
             continue
-        mid_pt, _ = T.member_mid(scheme, m)
+        mid_pt = T.member_at(scheme, m, 0.3)  # not halfway: crossing diagonals share their midpoint
         if st == "tension":
             badge(painter, mid_pt, "+", pal.selection)
         elif st == "compression":
@@ -156,9 +161,9 @@ class RedundancyLegend(QWidget):
                                                 ("bending", "moments only"))):
                 xx = x0 + k * (w / 3)
                 p.setPen(_state_pen(style))
-                p.drawLine(QPointF(xx, y + 6), QPointF(xx + 28, y + 6))
+                p.drawLine(QPointF(xx, y + 6), QPointF(xx + 36, y + 6))
                 p.setPen(dr.pen(pal.ink))
-                p.drawText(QRectF(xx + 34, y - 1, w / 3 - 34, 14), Qt.AlignLeft | Qt.AlignVCenter, words)
+                p.drawText(QRectF(xx + 42, y - 1, w / 3 - 42, 14), Qt.AlignLeft | Qt.AlignVCenter, words)
             p.setPen(dr.pen(pal.ink, 2.0))
             p.drawEllipse(QPointF(x0 + 8, y + 30), 7, 7)
             p.drawText(QRectF(x0 + 22, y + 23, w - 22, 14), Qt.AlignLeft | Qt.AlignVCenter,
@@ -467,9 +472,9 @@ class RedundancyView(InsightPanel):
         mid = self.hover_member
         if mid is not None and mid in scheme.members and res.redundancy is not None:
             m = scheme.members[mid]
-            painter.setPen(dr.pen(pal.hover, 10.0, alpha=110))
+            painter.setPen(dr.pen(pal.warning, 10.0, alpha=120))  # not a blue: the shading is blue
             painter.drawPath(T.member_path(scheme, m))
             p, _ = T.member_mid(scheme, m)
             v = res.redundancy.members.get(mid)
             if v is not None:
-                text_label(painter, p + QPointF(12, 10), f"{mid}: {v:.3f}")
+                text_label(painter, p + QPointF(14, -34), f"{mid}: {v:.3f}")  # above: the tooltip opens below

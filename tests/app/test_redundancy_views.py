@@ -294,6 +294,10 @@ def test_apply_a_remedy_from_the_list_makes_it_stable_and_undo_restores(qtbot, w
     s = win.doc.scheme
     (xa, ya), (xb, yb) = s.node_xy(a), s.node_xy(b)
     assert canvas_colour_near(win, (xa + xb) / 2, (ya + yb) / 2, dr.PALETTE.preview, radius=6)
+    # leaving the list ends the preview (nothing is picked yet)
+    qtbot.mouseMove(panel.apply_button)
+    qtbot.waitUntil(lambda: panel.preview is None, timeout=3000)
+    assert not win.insight.overlay.active("remedy")
     # apply it from the list
     qtbot.mouseClick(lst.viewport(), Qt.LeftButton, pos=list_rect(lst, k).center())
     qtbot.mouseClick(panel.apply_button, Qt.LeftButton)
@@ -350,3 +354,42 @@ def test_a_failing_analysis_is_reported_not_raised(qtbot, win):
     assert view.summary_label.text() == "Could not work out the redundancy"
     assert 'member "x1"' in view.status_label.text() and "stiffness.axial" in view.status_label.text()
     assert view.table.rowCount() == 0 and not win.insight.overlay.active("redundancy")
+
+
+# --------------------------------------------------------------------------- background work
+def test_views_work_only_while_their_dock_shows(qtbot, win):
+    open_view(qtbot, win, "redundancy", "tower_doubly_braced")
+    runners = win.insight.runners
+    assert runners["redundancy"].active and not runners["primary"].active and not runners["remedies"].active
+    runs = {k: r.runs for k, r in runners.items()}
+    x, y = win.doc.scheme.node_xy("L3")
+    win.doc.move_nodes({"L3": (x + 0.2, y)})
+    assert runners["redundancy"].runs == runs["redundancy"] + 1 and runners["redundancy"].is_current()
+    assert runners["primary"].runs == runs["primary"] and runners["remedies"].runs == runs["remedies"]
+    win.insight.show_view("primary")  # catches up at once when shown
+    assert runners["primary"].is_current() and not runners["redundancy"].active
+
+
+def test_big_schemes_are_analysed_off_the_gui_thread_and_stale_results_dropped(qtbot, tmp_path):
+    import threading
+
+    from catalogue import strip_truss
+
+    s = strip_truss(40)
+    for i in range(40):  # the second diagonal in every panel: s = 40 (one per panel, common practice)
+        s = s.with_member(Member(f"x{i}", f"t{i}", f"b{i + 1}", "bar"))
+    w = make_window(qtbot, tmp_path, sync=False)
+    runner = w.insight.runners["redundancy"]
+    got = []
+    runner.result_ready.connect(lambda rev, res: got.append(rev))
+    # the drawing changes while the first job runs: that result is dropped, the next one shown
+    runner.started.connect(lambda rev: len(got) == 0 and runner.dropped == 0 and w.doc.move_nodes(
+        {"t39": (w.doc.scheme.node_xy("t39")[0] + 0.1, w.doc.scheme.node_xy("t39")[1])}))
+    w.doc.replace_scheme(s)
+    w.insight.show_view("redundancy")
+    qtbot.waitUntil(lambda: runner.is_current() and w.insight.redundancy.result is not None, timeout=30000)
+    assert runner.dropped == 1 and got == [w.doc.revision]
+    assert runner.worker_thread is not None and runner.worker_thread != threading.get_ident()
+    red = w.insight.redundancy.result.redundancy
+    assert red.self_stress == 40 and red.total == pytest.approx(40.0, abs=1e-6)
+    w.doc.undo_stack.setClean()
