@@ -84,6 +84,7 @@ class ReportAction(QObject):
         self.progress.setCancelButton(None)
         self.progress.setWindowModality(Qt.WindowModal)
         self.progress.setMinimumDuration(400)
+        self.progress.setValue(0)  # starts the 400 ms count: quick reports never flash a dialog
         win._message(f"Writing the check report to {path.name}\u2026")
 
         def work() -> None:

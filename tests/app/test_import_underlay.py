@@ -442,6 +442,40 @@ def test_the_report_action_writes_a_pdf_with_the_verdict(qtbot, win, tmp_path):
     assert not list(tmp_path.glob(".portal_check.pdf*"))
 
 
+@needs_pdftotext
+def test_the_report_is_written_off_the_gui_thread_with_a_progress_note(qtbot, win, tmp_path, monkeypatch):
+    import threading
+    import time
+
+    from kinestat.app import report
+
+    real, threads = report.write_report, []
+
+    def slow(*a, **k):  # a big scheme takes seconds
+        threads.append(threading.get_ident())
+        time.sleep(1.0)
+        return real(*a, **k)
+
+    monkeypatch.setattr(report, "write_report", slow)
+    draw_chain(qtbot, win, "beam", [(0, 0), (4, 0)])
+    win.set_tool("pin")
+    click(qtbot, win.view, 0, 0)
+    win.set_tool("roller")
+    click(qtbot, win.view, 4, 0)
+    win.report_action.offer_open = lambda info: None
+    out = tmp_path / "beam.pdf"
+    with qtbot.waitSignal(win.report_action.done, timeout=60000):
+        assert win.report_action.write(out)
+        # the window keeps running while the worker writes: the progress note shows after 400 ms
+        qtbot.waitUntil(lambda: win.report_action.progress is not None and win.report_action.progress.isVisible(),
+                        timeout=3000)
+    assert threads and threads[0] != threading.get_ident()
+    assert win.report_action.progress is None
+    text = subprocess.run(["pdftotext", str(out), "-"], check=True, capture_output=True).stdout.decode()
+    # a simply supported beam: 3 reactions, 3 equations (statics)
+    assert "statically determinate" in " ".join(text.split())
+
+
 def test_the_report_refuses_to_overwrite_the_scheme_file(qtbot, win, tmp_path, shown):
     draw_chain(qtbot, win, "beam", [(0, 0), (3, 0)])
     target = tmp_path / "s.json"
