@@ -542,37 +542,22 @@ def render_image(scheme: Scheme, classification=None, width: int = 1600, height:
 
 def save_png(path, scheme: Scheme, classification=None, width: int = 1600, height: int = 1000, **kw) -> None:
     """Write a PNG atomically (temporary file + rename)."""
-    import os
-    import tempfile
-    from pathlib import Path
+    from kinestat.core.io import atomic_target
 
     img = render_image(scheme, classification, width, height, **kw)
-    target = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".png", dir=str(target.parent))
-    os.close(fd)
-    try:
+    with atomic_target(path) as tmp:
         if not img.save(tmp, "PNG"):
-            raise OSError(f"cannot write PNG to {target}")
-        os.replace(tmp, target)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+            raise OSError(f"cannot write PNG to {path}")
 
 
 def save_svg(path, scheme: Scheme, classification=None, width: int = 1600, height: int = 1000, **kw) -> None:
     """Write an SVG drawing atomically."""
-    import os
-    import tempfile
-    from pathlib import Path
-
     from PySide6.QtCore import QSize
     from PySide6.QtSvg import QSvgGenerator
 
-    target = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".svg", dir=str(target.parent))
-    os.close(fd)
-    try:
+    from kinestat.core.io import atomic_target
+
+    with atomic_target(path) as tmp:
         gen = QSvgGenerator()
         gen.setFileName(tmp)
         gen.setSize(QSize(width, height))
@@ -582,8 +567,4 @@ def save_svg(path, scheme: Scheme, classification=None, width: int = 1600, heigh
         p = QPainter(gen)
         paint_scheme(p, scheme, classification, QRectF(0, 0, width, height), **kw)
         p.end()
-        os.replace(tmp, target)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+        del p, gen  # the generator closes its file when it is destroyed

@@ -34,7 +34,6 @@ import hashlib
 import json
 import math
 import os
-import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable, Sequence
@@ -1370,9 +1369,9 @@ def write_report(scheme: Scheme, path, source_name: str | None = None, *, classi
     keep_none_alive()  # PySide6 6.12 on CPython 3.11: see qt_compat
     target = Path(path)
     facts = gather(scheme, source_name, classification=classification, when=when, extras=extras)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".pdf", dir=str(target.parent or "."))
-    os.close(fd)
-    try:
+    from kinestat.core.io import atomic_target
+
+    with atomic_target(target) as tmp:
         writer = _writer(tmp, facts, scheme.title or facts.source_name)
         rep = Report(facts, writer)
         pages = rep.build()
@@ -1380,9 +1379,4 @@ def write_report(scheme: Scheme, path, source_name: str | None = None, *, classi
         rep = writer = None  # the writer closes its file when it is destroyed
         if os.path.getsize(tmp) == 0:
             raise OSError(f"cannot write the PDF to {target}")
-        os.replace(tmp, target)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
     return ReportInfo(target, len(pages), facts.hash, facts.check["verdict"])

@@ -291,6 +291,16 @@ def dumps(scheme: Scheme) -> str:
     return json.dumps(scheme_to_dict(scheme), indent=1) + "\n"
 
 
+def _target_mode(p: Path) -> int:
+    """The mode the written file should have: the old file's, else the usual 0o666 - umask."""
+    try:
+        return p.stat().st_mode & 0o7777
+    except OSError:
+        umask = os.umask(0)
+        os.umask(umask)
+        return 0o666 & ~umask
+
+
 def atomic_write_text(path: str | os.PathLike, text: str) -> None:
     """Write ``text`` to ``path`` atomically (temporary file in the same folder + rename)."""
     p = Path(path)
@@ -300,6 +310,7 @@ def atomic_write_text(path: str | os.PathLike, text: str) -> None:
             fh.write(text)
             fh.flush()
             os.fsync(fh.fileno())
+        os.chmod(tmp, _target_mode(p))
         os.replace(tmp, p)
     except BaseException:
         try:
@@ -324,6 +335,7 @@ def atomic_target(path: str | os.PathLike):
     os.close(fd)
     try:
         yield tmp
+        os.chmod(tmp, _target_mode(p))
         os.replace(tmp, p)
     except BaseException:
         try:
