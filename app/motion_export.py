@@ -21,8 +21,7 @@ from kinestat.core.model import Scheme
 
 from . import drawing as dr
 from .motion_data import MotionData, frame_label
-from .motion_overlay import (BODY_W, GHOST_OPACITY, _Anchors, body_colour, member_path, node_glyphs,
-                             paint_marks, trail_path)
+from .motion_overlay import BODY_W, GHOST_OPACITY, Lines, _Anchors, body_colour, node_glyphs, paint_marks, trail_path
 
 GIF_NOTE = ("Qt cannot write animated GIF: the animation is saved as a numbered PNG series "
             "(join the frames with a video or GIF tool if one file is wanted).")
@@ -62,7 +61,11 @@ class FramePainter:
         self.glyphs = node_glyphs(scheme)
         self.anchors = _Anchors(scheme, data)
         self.trails = trail_path(data, self.T.map)
-        self.still = member_path(scheme, data, data.start, data.still_members, self.T.map)
+        self.still = self.lines(data.start, data.still_members)
+
+    def lines(self, k: int, members) -> Lines:
+        T = self.T
+        return Lines(self.scheme, self.data, k, members, T.scale, T.ox, -T.scale, T.oy)
 
     def paint(self, p: QPainter, k: int) -> None:
         s, d, T, pal = self.scheme, self.data, self.T, dr.PALETTE
@@ -82,12 +85,10 @@ class FramePainter:
         p.setPen(dr.pen(pal.mechanism, self.k, Qt.DotLine, alpha=170))
         p.setBrush(Qt.NoBrush)
         p.drawPath(self.trails)
-        p.setPen(dr.pen(pal.ink, 1.6 * self.k))
-        p.drawPath(self.still)
+        self.still.paint(p, dr.pen(pal.ink, 1.6 * self.k))
         style = Qt.DashLine if d.linearised else Qt.SolidLine
         for j, b in enumerate(d.bodies):
-            p.setPen(dr.pen(body_colour(j), BODY_W * self.k, style))
-            p.drawPath(member_path(s, d, k, b.members, T.map))
+            self.lines(k, b.members).paint(p, dr.pen(body_colour(j), BODY_W * self.k, style))
         paint_marks(p, s, d, k, T.map, self.area, self.glyphs, self.anchors, self.k)
         p.restore()
         self._texts(p, k)

@@ -15,8 +15,8 @@ import math
 from typing import Callable
 
 import numpy as np
-from PySide6.QtCore import QObject, QPointF, QRectF, Qt, QTimer
-from PySide6.QtGui import QBrush, QColor, QFont, QFontMetricsF, QPainter, QPainterPath
+from PySide6.QtCore import QLineF, QObject, QPointF, QRectF, Qt, QTimer
+from PySide6.QtGui import QBrush, QColor, QFont, QFontMetricsF, QPainter, QPainterPath, QPen, QPolygonF
 from PySide6.QtWidgets import QGraphicsItem, QGraphicsPathItem
 
 from kinestat.core.model import Scheme, arc_points
@@ -61,31 +61,87 @@ def node_glyphs(scheme: Scheme) -> dict[str, str]:
     return out
 
 
-def member_path(scheme: Scheme, data: MotionData, k: int, members, to_point) -> QPainterPath:
-    """The members' centre lines at frame ``k`` as one path (``to_point`` maps model x, y)."""
-    P = data.P[k]
-    path = QPainterPath()
-    for mid in members:
-        a, b = data.member_nodes[mid]
-        pa, pb = (float(P[a, 0]), float(P[a, 1])), (float(P[b, 0]), float(P[b, 1]))
-        rise = scheme.members[mid].rise
-        pts = arc_points(pa, pb, rise, 16) if rise else (pa, pb)
-        path.moveTo(to_point(*pts[0]))
-        for p in pts[1:]:
-            path.lineTo(to_point(*p))
-    return path
+class Lines:
+    """Member centre lines at one frame, mapped by ``X = ox + sx x, Y = oy + sy y``: straight
+    members as one batch of lines, curved ones as polylines.  (One QPainterPath of hundreds of
+    sub-paths costs some 50 ms to stroke with a pen wider than a pixel; a batch of lines
+    costs under one.)"""
+
+    def __init__(self, scheme: Scheme, data: MotionData, k: int, members, sx=1.0, ox=0.0, sy=-1.0, oy=0.0):
+        P = data.P[k]
+        straight = [mid for mid in members if not scheme.members[mid].rise]
+        curved = [mid for mid in members if scheme.members[mid].rise]
+        ab = np.array([data.member_nodes[mid] for mid in straight], int).reshape(-1, 2)
+        A, B = P[ab[:, 0]], P[ab[:, 1]]
+        seg = np.column_stack([ox + sx * A[:, 0], oy + sy * A[:, 1], ox + sx * B[:, 0], oy + sy * B[:, 1]])
+        self.segments = seg
+        self.lines = [QLineF(*row) for row in seg.tolist()]
+        self.polylines = []
+        pts_all = [seg[:, :2], seg[:, 2:]]
+        for mid in curved:
+            a, b = data.member_nodes[mid]
+            pts = np.array(arc_points(tuple(P[a]), tuple(P[b]), scheme.members[mid].rise, 16))
+            pts = np.column_stack([ox + sx * pts[:, 0], oy + sy * pts[:, 1]])
+            pts_all.append(pts)
+            self.polylines.append(QPolygonF([QPointF(x, y) for x, y in pts.tolist()]))
+        allp = np.concatenate(pts_all) if pts_all else np.zeros((0, 2))
+        if len(allp):
+            lo, hi = allp.min(axis=0), allp.max(axis=0)
+            self.rect = QRectF(lo[0], lo[1], hi[0] - lo[0], hi[1] - lo[1])
+        else:
+            self.rect = QRectF()
+
+    def paint(self, p: QPainter, pen: QPen) -> None:
+        flat = QPen(pen)
+        flat.setCapStyle(Qt.FlatCap)
+        p.setPen(flat)
+        if self.lines:
+            p.drawLines(self.lines)
+        if self.polylines:
+            p.setPen(pen)
+            for poly in self.polylines:
+                p.drawPolyline(poly)
 
 
-def _scene_point(x: float, y: float) -> QPointF:
-    return QPointF(x, -y)
+class LinesItem(QGraphicsItem):
+    """Member lines in scene units with a cosmetic pen (a body, or the members that stay still)."""
+
+    def __init__(self, z: float):
+        super().__init__()
+        self.geometry: Lines | None = None
+        self.pen = dr.pen(dr.PALETTE.ink)
+        self._rect = QRectF()
+        self.setZValue(z)
+        self.setAcceptedMouseButtons(Qt.NoButton)
+
+    def set_lines(self, geometry: Lines) -> None:
+        self.prepareGeometryChange()
+        self.geometry = geometry
+        # a little room for the pen (cosmetic: the width is in pixels, the rect in scene units)
+        pad = 1e-3 * max(geometry.rect.width(), geometry.rect.height(), 1e-6)
+        self._rect = geometry.rect.adjusted(-pad, -pad, pad, pad)
+        self.update()
+
+    def set_pen(self, pen: QPen) -> None:
+        self.pen = pen
+        self.update()
+
+    def boundingRect(self) -> QRectF:  # noqa: N802
+        return self._rect
+
+    def paint(self, painter, option, widget=None) -> None:
+        if self.geometry is not None:
+            self.geometry.paint(painter, self.pen)
 
 
 # ---------------------------------------------------------------------- shared painting
-def draw_tag(p: QPainter, at: QPointF, text: str, colour: str, area: QRectF | None = None) -> None:
-    """A small boxed label with its lower-left corner at ``at`` (kept inside ``area`` if given)."""
+def draw_tag(p: QPainter, at: QPointF, text: str, colour: str, area: QRectF | None = None,
+             centred: bool = False) -> None:
+    """A small boxed label with its lower-left corner (or its centre) at ``at``, kept inside
+    ``area`` if given."""
     fm = QFontMetricsF(p.font())
     w, h = fm.horizontalAdvance(text) + 8, fm.height() + 2
-    box = QRectF(at.x(), at.y() - h, w, h)
+    box = QRectF(at.x() - w / 2, at.y() - h / 2, w, h) if centred else QRectF(at.x(), at.y() - h, w, h)
     if area is not None:
         box.moveLeft(min(max(box.left(), area.left() + 4), area.right() - w - 4))
         box.moveTop(min(max(box.top(), area.top() + 4), area.bottom() - h - 4))
@@ -186,9 +242,10 @@ def paint_marks(p: QPainter, scheme: Scheme, data: MotionData, k: int, to_device
         if not area.contains(mid):  # the body has moved out of view: point to it
             e = edge_point(area, area.center(), mid)
             L = math.hypot(mid.x() - area.center().x(), mid.y() - area.center().y()) or 1.0
-            tail = e - QPointF(30 * (mid.x() - area.center().x()) / L, 30 * (mid.y() - area.center().y()) / L)
+            u = QPointF((mid.x() - area.center().x()) / L, (mid.y() - area.center().y()) / L)
+            tail = e - 30 * u
             draw_arrow(p, tail, e, colour, 2.0)
-            draw_tag(p, tail + QPointF(-14, -8), f"{b.label} off view", colour, area)
+            draw_tag(p, tail - 16 * u, f"{b.label} off view", colour, area, centred=True)
             continue
         draw_tag(p, mid + QPointF(6 * scale, -6 * scale), b.label, colour)
         cx, cy = b.centres[k]
@@ -200,9 +257,10 @@ def paint_marks(p: QPainter, scheme: Scheme, data: MotionData, k: int, to_device
             else:
                 e = edge_point(area, mid, q)
                 L = math.hypot(q.x() - mid.x(), q.y() - mid.y()) or 1.0
-                tail = e - QPointF(26 * (q.x() - mid.x()) / L, 26 * (q.y() - mid.y()) / L)
+                u = QPointF((q.x() - mid.x()) / L, (q.y() - mid.y()) / L)
+                tail = e - 26 * u
                 draw_arrow(p, tail, e, colour)
-                draw_tag(p, tail + QPointF(-10, -6), f"I{j + 1} off view ({cx:.4g}, {cy:.4g})", colour, area)
+                draw_tag(p, tail - 16 * u, f"I{j + 1} off view ({cx:.4g}, {cy:.4g})", colour, area, centred=True)
         else:
             dx, dy = b.directions[k]
             if np.isfinite(dx):
@@ -224,6 +282,10 @@ def paint_marks(p: QPainter, scheme: Scheme, data: MotionData, k: int, to_device
         p.drawText(box.adjusted(8, 0, -8, 0), int(Qt.AlignVCenter | Qt.AlignLeft),
                    fm.elidedText(text, Qt.ElideRight, box.width() - 16))
     p.restore()
+
+
+def _scene_point(x: float, y: float) -> QPointF:
+    return QPointF(x, -y)
 
 
 def trail_path(data: MotionData, to_point, limit: int = MAX_TRAILS) -> QPainterPath:
@@ -282,10 +344,9 @@ class MotionOverlay(QObject):
         self.shown = False
         self.glyphs: dict[str, str] = {}
         self.anchors: _Anchors | None = None
-        self.body_items: list[QGraphicsPathItem] = []
-        self._paths: dict[int, list[QPainterPath]] = {}
-        self.still_item = QGraphicsPathItem()
-        self.still_item.setZValue(Z_STILL)
+        self.body_items: list[LinesItem] = []
+        self._lines: dict[int, list[Lines]] = {}
+        self.still_item = LinesItem(Z_STILL)
         self.trail_item = QGraphicsPathItem()
         self.trail_item.setZValue(Z_TRAILS)
         self.trail_item.setPen(dr.pen(dr.PALETTE.mechanism, 1.0, Qt.DotLine, alpha=170))
@@ -305,7 +366,7 @@ class MotionOverlay(QObject):
         for it in self.body_items:
             self.scene.removeItem(it)
         self.body_items = []
-        self._paths = {}
+        self._lines = {}
         self.scheme, self.data = scheme, data
         if data is None or scheme is None:
             self.set_shown(False)
@@ -313,17 +374,15 @@ class MotionOverlay(QObject):
         self.glyphs = node_glyphs(scheme)
         self.anchors = _Anchors(scheme, data)
         for j, _b in enumerate(data.bodies):
-            it = QGraphicsPathItem()
-            it.setZValue(Z_BODY)
-            it.setAcceptedMouseButtons(Qt.NoButton)
-            it.setPen(dr.pen(body_colour(j), BODY_W, Qt.DashLine if data.linearised else Qt.SolidLine))
+            it = LinesItem(Z_BODY)
+            it.set_pen(dr.pen(body_colour(j), BODY_W, Qt.DashLine if data.linearised else Qt.SolidLine))
             it.setVisible(self.shown)
             self.scene.addItem(it)
             self.body_items.append(it)
         beams = [mid for mid in data.still_members if scheme.members[mid].kind == "beam"]
-        self.still_item.setPen(dr.pen(dr.PALETTE.bar_ink if len(beams) < len(data.still_members) else dr.PALETTE.ink,
-                                      1.6))
-        self.still_item.setPath(member_path(scheme, data, data.start, data.still_members, _scene_point))
+        self.still_item.set_pen(dr.pen(dr.PALETTE.bar_ink if len(beams) < len(data.still_members) else dr.PALETTE.ink,
+                                       1.6))
+        self.still_item.set_lines(Lines(scheme, data, data.start, data.still_members))
         self.trail_item.setPath(trail_path(data, _scene_point))
         self.frame = -1
         self.set_frame(data.start)
@@ -336,12 +395,12 @@ class MotionOverlay(QObject):
         if k == self.frame:
             return
         self.frame = k
-        paths = self._paths.get(k)
-        if paths is None:
-            paths = [member_path(self.scheme, d, k, b.members, _scene_point) for b in d.bodies]
-            self._paths[k] = paths
-        for it, path in zip(self.body_items, paths):
-            it.setPath(path)
+        lines = self._lines.get(k)
+        if lines is None:
+            lines = [Lines(self.scheme, d, k, b.members) for b in d.bodies]
+            self._lines[k] = lines
+        for it, geo in zip(self.body_items, lines):
+            it.set_lines(geo)
         self.marks_item.update()
 
     # ------------------------------------------------------------------ ghost
@@ -373,6 +432,9 @@ class MotionOverlay(QObject):
 
     # ------------------------------------------------------------------ for tests and export
     def body_points(self, j: int) -> list[tuple[float, float]]:
-        """Model points of body ``j``'s drawn path (start and end of each member line)."""
-        path = self.body_items[j].path()
-        return [(path.elementAt(i).x, -path.elementAt(i).y) for i in range(path.elementCount())]
+        """Model points of body ``j`` as drawn: start and end of each straight member's line, in
+        the body's member order (curved members are drawn as polylines after them)."""
+        out = []
+        for ln in self.body_items[j].geometry.lines:
+            out += [(ln.x1(), -ln.y1()), (ln.x2(), -ln.y2())]
+        return out
