@@ -2,8 +2,22 @@
 example's "expected" block on the first edit."""
 from __future__ import annotations
 
+import json
+import math
+
+import pytest
+import sympy as sp
+from PySide6.QtCore import QPoint, Qt
+from PySide6.QtGui import QColor
+
+from app_helpers import make_window, vp
+
+from kinestat.app import drawing as dr
 from kinestat.app.document import Document, new_gesture
-from kinestat.core.io import load
+from kinestat.core.classify import classify
+from kinestat.core.io import dumps, load
+from kinestat.core.model import Member, Node, Scheme, Support
+from kinestat.core.redundancy import redundancy
 from kinestat.examples import example_paths
 
 
@@ -20,6 +34,8 @@ def test_first_edit_drops_the_expected_block_and_undo_brings_it_back(qtbot):
     doc.commit("Remove diagonal", s.without_members(["x1"]))
     assert "expected" not in doc.scheme.extra
     assert doc.scheme.extra.get("notes") == s.extra["notes"]  # other blocks stay
+    saved = json.loads(dumps(doc.scheme))
+    assert "expected" not in saved and saved["notes"] == s.extra["notes"]
     doc.commit("Remove diagonal", doc.scheme.without_members(["x3"]))
     assert doc.undo_stack.count() == 2
     doc.undo_stack.undo()
@@ -43,21 +59,6 @@ def test_a_drag_back_to_the_start_keeps_the_expected_block(qtbot):
 
 
 # --------------------------------------------------------------------------- helpers
-import math  # noqa: E402
-
-import pytest  # noqa: E402
-import sympy as sp  # noqa: E402
-from PySide6.QtCore import QPoint, Qt  # noqa: E402
-from PySide6.QtGui import QColor  # noqa: E402
-
-from app_helpers import make_window, vp  # noqa: E402
-
-from kinestat.app import drawing as dr  # noqa: E402
-from kinestat.core.classify import classify  # noqa: E402
-from kinestat.core.model import Member, Node, Scheme, Support  # noqa: E402
-from kinestat.core.redundancy import redundancy  # noqa: E402
-
-
 @pytest.fixture
 def win(qtbot, tmp_path):
     w = make_window(qtbot, tmp_path)
