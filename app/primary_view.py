@@ -82,7 +82,8 @@ def paint_release(painter: QPainter, T: DeviceMap, scheme: Scheme, rel, number: 
     if m is None or m.start not in scheme.nodes or m.end not in scheme.nodes:
         return
     if rel.kind == "cut":
-        p, ang = T.member_mid(scheme, m)
+        _, ang = T.member_mid(scheme, m)
+        p = T.member_at(scheme, m, 0.35)  # off the midpoint, where crossing diagonals hop
         u = QPointF(math.cos(ang), math.sin(ang))
         n = QPointF(-u.y(), u.x())
         painter.setPen(dr.pen(pal.paper, 7.0))
@@ -178,8 +179,9 @@ class PrimaryView(InsightPanel):
                 self.summary_label.setText(r.note[:1].upper() + r.note[1:] if r.note else "No primary structure.")
             else:
                 s = r.self_stress
-                self.summary_label.setText(f"Degree of indeterminacy {s}: {s} release{'s' if s != 1 else ''} "
-                                           "leave a stable, statically determinate scheme")
+                self.summary_label.setText(f"Degree of indeterminacy {s}: {s} release"
+                                           f"{'s leave' if s != 1 else ' leaves'} a stable, statically "
+                                           "determinate scheme")
                 self.status_label.setText("Every choice listed has been re-analysed: no mechanism, no "
                                           "state of self-stress.")
                 if keep is not None:  # stay on the same choice when it is still offered
