@@ -267,7 +267,7 @@ def sparse_rank(A: sp.csc_matrix, want_mech: bool = True, max_basis: int = 64,
     if m == 0 and not math.isfinite(kept):
         # the smallest singular values for the near-singular test (inverse iteration converges to
         # the eigenvalues of K nearest tau, i.e. the smallest ones when m = 0)
-        X, r = _ritz_null(A.T, K, lu, 3, smax, max_sweeps=6)
+        X, r = _ritz_null(A.T, K, lu, 2, smax, max_sweeps=3)
         kept = float(r[0])
         nxt = float(r[1]) if r.size > 1 else math.nan
         soft = X[:, 0]
