@@ -39,7 +39,8 @@ import scipy.sparse.linalg as spla  # noqa: E402
 from catalogue import bars, build, rigid_frame, strip_truss  # noqa: E402
 
 
-def compact_truss(p: int):
+def _square_grid(p: int, diagonals) -> tuple[dict, list]:
+    """Nodes of a (p+1) x (p+1) unit grid, its cell sides, and the diagonals of the given cells."""
     nodes = {f"n{i}_{j}": (float(i), float(j)) for i in range(p + 1) for j in range(p + 1)}
     pairs = []
     for i in range(p + 1):
@@ -48,24 +49,19 @@ def compact_truss(p: int):
                 pairs.append((f"n{i}_{j}", f"n{i+1}_{j}"))
             if j < p:
                 pairs.append((f"n{i}_{j}", f"n{i}_{j+1}"))
-            if i < p and j < p:
-                pairs.append((f"n{i}_{j}", f"n{i+1}_{j+1}"))
+    pairs += [(f"n{a}_{b}", f"n{a+1}_{b+1}") for a, b in sorted(diagonals)]
+    return nodes, pairs
+
+
+def compact_truss(p: int):
+    nodes, pairs = _square_grid(p, {(i, j) for i in range(p) for j in range(p)})
     return build(nodes, bars(pairs), [("n0_0", "pin"), (f"n{p}_0", "roller")]), (0, (p - 1) ** 2)
 
 
 def grid(p: int):
-    nodes = {f"n{i}_{j}": (float(i), float(j)) for i in range(p + 1) for j in range(p + 1)}
-    pairs = []
-    for i in range(p + 1):
-        for j in range(p + 1):
-            if i < p:
-                pairs.append((f"n{i}_{j}", f"n{i+1}_{j}"))
-            if j < p:
-                pairs.append((f"n{i}_{j}", f"n{i}_{j+1}"))
     braced = {(i, i) for i in range(p) if i % 4 == 0} | {(0, 1), (1, 0), (1, 1)}
     braced = {(a, b) for a, b in braced if a < p and b < p}
-    for (a, b) in sorted(braced):
-        pairs.append((f"n{a}_{b}", f"n{a+1}_{b+1}"))
+    nodes, pairs = _square_grid(p, braced)
     # bipartite graph rows/cols of cells: components
     parent = list(range(2 * p))
 

@@ -303,21 +303,11 @@ def _target_mode(p: Path) -> int:
 
 def atomic_write_text(path: str | os.PathLike, text: str) -> None:
     """Write ``text`` to ``path`` atomically (temporary file in the same folder + rename)."""
-    p = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=str(p.parent or "."))
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
+    with atomic_target(path) as tmp:
+        with open(tmp, "w", encoding="utf-8", newline="\n") as fh:
             fh.write(text)
             fh.flush()
             os.fsync(fh.fileno())
-        os.chmod(tmp, _target_mode(p))
-        os.replace(tmp, p)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
 
 
 @contextlib.contextmanager
