@@ -4,7 +4,7 @@ One frame = one mouse-move event on the viewport while the button is held (the s
 tool snaps, the document pushes a merged move command, the scene updates the items at the
 node) plus the event processing that follows it, which repaints the viewport once.  Runs offscreen unless DISPLAY is set.
 
-    /tmp/kvenv/bin/python benchmarks/bench_app_drag.py [--frames 120]
+    python benchmarks/bench_app_drag.py [--frames 120]
 
 Prints a table: scenario, frames, mean / median / 95th percentile / worst frame in ms, and
 how many verdicts arrived during the drag.

@@ -18,7 +18,7 @@ Columns (seconds unless marked; best of --repeat):
   stall       the longest the GUI thread went without running a 5 ms timer while the view's
               job ran on the worker thread, in the real window (ms)
 
-Run:  /tmp/kvenv/bin/python benchmarks/bench_app_redundancy.py [--repeat N]
+Run:  python benchmarks/bench_app_redundancy.py [--repeat N]
 Offscreen unless DISPLAY is set.
 """
 from __future__ import annotations

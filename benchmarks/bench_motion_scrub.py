@@ -10,7 +10,7 @@ Cases:
   strip truss   ~500 bars, a pin-jointed strip with one diagonal left out (m = 1)
   soft storey   ~500 beams, a rigid frame whose ground-storey columns are hinged at both ends
 
-    /tmp/kvenv/bin/python benchmarks/bench_motion_scrub.py [--quick]
+    python benchmarks/bench_motion_scrub.py [--quick]
 
 Prints per case: members, frames, tracing time (worker), then for each pass the frames,
 mean / median / 95th percentile / worst frame in ms.
