@@ -81,22 +81,20 @@ class System:
         return self.A.shape
 
 
-def _pieces(scheme: Scheme, active: list[str]) -> list[list[str]]:
-    """Node ids of each connected piece (members join their end nodes)."""
+def _pieces(node_ids: list[str], used: np.ndarray, si: np.ndarray, ei: np.ndarray) -> list[list[str]]:
+    """Node ids of each connected piece (members join their end nodes); unused nodes skipped."""
     from scipy.sparse.csgraph import connected_components
 
-    index = {nid: k for k, nid in enumerate(active)}
-    n = len(active)
-    if n == 0:
+    n = len(node_ids)
+    if n == 0 or si.size == 0:
         return []
-    a = np.fromiter((index[m.start] for m in scheme.members.values()), int)
-    b = np.fromiter((index[m.end] for m in scheme.members.values()), int)
-    G = sp.coo_matrix((np.ones(a.size), (a, b)), shape=(n, n))
-    k, labels = connected_components(G, directed=False)
-    groups: list[list[str]] = [[] for _ in range(k)]
-    for nid, lab in zip(active, labels.tolist()):
-        groups[lab].append(nid)
-    return groups
+    G = sp.coo_matrix((np.ones(si.size), (si, ei)), shape=(n, n))
+    _, labels = connected_components(G, directed=False)
+    groups: dict[int, list[str]] = {}
+    for nid, lab, u in zip(node_ids, labels.tolist(), used.tolist()):
+        if u:
+            groups.setdefault(lab, []).append(nid)
+    return list(groups.values())
 
 
 def rigid_beam_ends(scheme: Scheme) -> dict[str, int]:
@@ -126,12 +124,13 @@ def assemble(scheme: Scheme) -> System:
     mlist = list(scheme.members.values())
     nm = len(mlist)
     nn = len(node_ids)
-    si = np.fromiter((index[m.start] for m in mlist), int, nm)
-    ei = np.fromiter((index[m.end] for m in mlist), int, nm)
-    is_beam = np.fromiter((m.kind == "beam" for m in mlist), bool, nm)
+    # one pass over the members: end indices, beam flag, moment release at each end
+    packed = np.array([(index[m.start], index[m.end], m.kind == "beam",
+                        "moment" in m.releases_start, "moment" in m.releases_end) for m in mlist],
+                      dtype=int).reshape(nm, 5)
+    si, ei = packed[:, 0].copy(), packed[:, 1].copy()
+    is_beam, rel_s, rel_e = (packed[:, 2] != 0), (packed[:, 3] != 0), (packed[:, 4] != 0)
     hinge = np.fromiter((n.hinge for n in scheme.nodes.values()), bool, nn)
-    rel_s = np.fromiter(("moment" in m.releases_start for m in mlist), bool, nm)
-    rel_e = np.fromiter(("moment" in m.releases_end for m in mlist), bool, nm)
     used = np.zeros(nn, bool)
     used[si] = True
     used[ei] = True
@@ -149,14 +148,14 @@ def assemble(scheme: Scheme) -> System:
     th_row = np.where(has_theta, base + 2, -1)
     rows: list[tuple[str, str, str]] = []
     node_dof: dict[str, tuple[int, int, int | None]] = {}
-    for nid, b0, ht in zip(node_ids, base.tolist(), has_theta.tolist()):
-        if nid not in scheme.nodes or not ndof_node[index[nid]]:
+    for nid, b0, ht, nd in zip(node_ids, base.tolist(), has_theta.tolist(), ndof_node.tolist()):
+        if not nd:
             continue
-        rows.append(("u", nid, "")); rows.append(("v", nid, ""))
         if ht:
-            rows.append(("theta", nid, ""))
+            rows += (("u", nid, ""), ("v", nid, ""), ("theta", nid, ""))
             node_dof[nid] = (b0, b0 + 1, b0 + 2)
         else:
+            rows += (("u", nid, ""), ("v", nid, ""))
             node_dof[nid] = (b0, b0 + 1, None)
     active_set = set(active)
 
@@ -176,13 +175,13 @@ def assemble(scheme: Scheme) -> System:
 
     cols: list[tuple[str, str, str]] = []
     member_cols: dict[str, list[int]] = {}
-    for m, f, beam in zip(mlist, first.tolist(), is_beam.tolist()):
+    for mid, f, beam in zip(scheme.members, first.tolist(), is_beam.tolist()):
         if beam:
-            cols += [("N", m.id, ""), ("Mi", m.id, ""), ("Mj", m.id, "")]
-            member_cols[m.id] = [f, f + 1, f + 2]
+            cols += (("N", mid, ""), ("Mi", mid, ""), ("Mj", mid, ""))
+            member_cols[mid] = [f, f + 1, f + 2]
         else:
-            cols.append(("N", m.id, ""))
-            member_cols[m.id] = [f]
+            cols.append(("N", mid, ""))
+            member_cols[mid] = [f]
     # axial columns (every member)
     I_parts = [iu, iv, ju, jv]
     J_parts = [first] * 4
@@ -274,7 +273,7 @@ def assemble(scheme: Scheme) -> System:
     A = sp.csc_matrix((Vall[keep], (Iall[keep], Jall[keep])), shape=(len(rows), len(cols)))
     A.sum_duplicates()
     return System(A, rows, cols, node_dof, member_cols, reaction_cols, release_rows, lref, active,
-                  _pieces(scheme, active), findings, n_reactions, node_ids,
+                  _pieces(node_ids, used, si, ei), findings, n_reactions, node_ids,
                   np.stack([si, ei], axis=1) if nm else np.zeros((0, 2), int))
 
 
