@@ -106,7 +106,8 @@ class MainWindow(QMainWindow):
         self.addDockWidget(Qt.RightDockWidgetArea, h)
         self.tabifyDockWidget(p, h)
         p.raise_()
-        self.resizeDocks([d], [400], Qt.Horizontal)
+        # wide enough for the tab strip of the docks tabbed with Properties to show their names
+        self.resizeDocks([d], [480], Qt.Horizontal)
         self.resizeDocks([d, p], [640, 240], Qt.Vertical)
         self.history_dock = h
 
