@@ -14,6 +14,7 @@ words any way the count would mislead.
 """
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, field
 
@@ -25,15 +26,52 @@ from .model import Scheme
 from .rank import NEAR_GAP, NEAR_RTOL, RankResult, decide_rank, null_space_basis
 
 
-@dataclass(frozen=True)
 class Mode:
-    """One mechanism mode: node velocities (normalised so the largest is 1)."""
+    """One mechanism mode: node velocities (normalised so the largest is 1).
 
-    displacements: dict[str, tuple[float, float]]
-    rotations: dict[str, float]
-    #: relative motion at releases (member id, detail) -> value
-    release_gaps: dict[tuple[str, str], float]
-    kind: str  # "rigid-body" or "internal"
+    The per-node dictionaries are built on first use (a big scheme has tens of thousands of
+    nodes and the app usually draws only the first mode).
+    """
+
+    __slots__ = ("vector", "system", "kind", "_arrays", "__dict__")
+
+    def __init__(self, vector: np.ndarray, system: System, kind: str, arrays=None):
+        self.vector = vector
+        self.system = system
+        #: "rigid-body" or "internal"
+        self.kind = kind
+        self._arrays = arrays
+
+    @functools.cached_property
+    def _scaled(self):
+        ids, dof, th, _ = self._arrays if self._arrays is not None else _node_arrays(self.system, None)
+        vec = self.vector
+        u, v = vec[dof[:, 0]], vec[dof[:, 1]]
+        scale = float(np.hypot(u, v).max()) if u.size else 0.0
+        if scale < 1e-12 * max(1.0, float(np.abs(vec).max()) if vec.size else 1.0):
+            scale = float(np.abs(vec).max()) if vec.size else 1.0
+            scale = scale or 1.0
+        return ids, dof, th, vec / scale
+
+    @functools.cached_property
+    def displacements(self) -> dict[str, tuple[float, float]]:
+        ids, dof, _, w = self._scaled
+        return dict(zip(ids, zip(w[dof[:, 0]].tolist(), w[dof[:, 1]].tolist())))
+
+    @functools.cached_property
+    def rotations(self) -> dict[str, float]:
+        ids, _, th, w = self._scaled
+        return {nid: float(w[t] / self.system.lref) for nid, t in zip(ids, th.tolist()) if t >= 0}
+
+    @functools.cached_property
+    def release_gaps(self) -> dict[tuple[str, str], float]:
+        w = self._scaled[3]
+        gaps = {}
+        for r_list in self.system.release_rows.values():
+            for r in r_list:
+                _, item, detail = self.system.rows[r]
+                gaps[(item, detail)] = float(w[r])
+        return gaps
 
 
 @dataclass
@@ -100,6 +138,15 @@ def _num(x: float):
 
 
 def _node_arrays(system: System, scheme: Scheme | None):
+    cache = getattr(system, "_node_arrays_cache", None)
+    if cache is not None and (scheme is None or cache[4]):
+        return cache[:4]
+    out = _build_node_arrays(system, scheme)
+    system._node_arrays_cache = (*out, scheme is not None)
+    return out
+
+
+def _build_node_arrays(system: System, scheme: Scheme | None):
     ids = list(system.node_dof)
     dof = np.array([system.node_dof[n][:2] for n in ids], int).reshape(-1, 2)
     th = np.array([-1 if system.node_dof[n][2] is None else system.node_dof[n][2] for n in ids], int)
@@ -170,20 +217,7 @@ def reference_supported(system: System, scheme: Scheme):
 
 
 def _mode_from_vector(vec: np.ndarray, system: System, kind: str, arrays=None) -> Mode:
-    ids, dof, th, _ = arrays if arrays is not None else _node_arrays(system, None)
-    u, v = vec[dof[:, 0]], vec[dof[:, 1]]
-    scale = float(np.hypot(u, v).max()) if u.size else 0.0
-    if scale < 1e-12 * max(1.0, float(np.abs(vec).max())):
-        scale = float(np.abs(vec).max()) or 1.0
-    u, v = (u / scale).tolist(), (v / scale).tolist()
-    disp = {nid: (a, b) for nid, a, b in zip(ids, u, v)}
-    rot = {nid: float(vec[t] / scale / system.lref) for nid, t in zip(ids, th.tolist()) if t >= 0}
-    gaps = {}
-    for r_list in system.release_rows.values():
-        for r in r_list:
-            _, item, detail = system.rows[r]
-            gaps[(item, detail)] = float(vec[r] / scale)
-    return Mode(disp, rot, gaps, kind)
+    return Mode(vec, system, kind, arrays)
 
 
 def _canonical_sign(B: np.ndarray) -> np.ndarray:
