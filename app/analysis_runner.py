@@ -75,6 +75,9 @@ class AnalysisRunner(QObject):
         #: thread id of the last background job (None until one ran)
         self.worker_thread: int | None = None
         self._busy = False
+        #: the scheme behind ``result`` (to skip re-analysis when only non-mechanical fields change)
+        self._last_scheme: Scheme | None = None
+        self._pending_schemes: dict[int, Scheme] = {}
         self._timer = QTimer(self)
         self._timer.setSingleShot(True)
         self._timer.setInterval(interval_ms)
@@ -97,10 +100,25 @@ class AnalysisRunner(QObject):
         if not self._timer.isActive():
             self._timer.start()
 
+    def _reuse(self, rev: int, scheme: Scheme) -> bool:
+        """Publish the last result again when an edit left the mechanics unchanged
+        (the title, units, notes or the underlay image): no analysis needed."""
+        last = self._last_scheme
+        if last is None or self.error is not None or self.result_revision < 0:
+            return False
+        if not (last.nodes == scheme.nodes and last.members == scheme.members
+                and last.supports == scheme.supports):
+            return False
+        self.result_revision = rev
+        self.result_ready.emit(rev, self.result)
+        return True
+
     def run_now(self) -> None:
         """Classify the current scheme on this thread and publish the result."""
         self._timer.stop()
         rev, scheme = self.doc.revision, self.doc.scheme
+        if self._reuse(rev, scheme):
+            return
         t0 = time.perf_counter()
         try:
             res, err = self.compute(scheme), None
@@ -112,12 +130,13 @@ class AnalysisRunner(QObject):
         if self._busy:
             return  # the finishing job starts the next one
         rev, scheme = self.doc.revision, self.doc.scheme
-        if rev == self.result_revision:
+        if rev == self.result_revision or self._reuse(rev, scheme):
             return
         if len(scheme.members) < self.thread_members:
             self.run_now()
             return
         self._busy = True
+        self._pending_schemes[rev] = scheme
         self._pool.start(_Job(rev, scheme, self._signals, self.compute))
         self.started.emit(rev)
 
@@ -131,9 +150,11 @@ class AnalysisRunner(QObject):
     def _finish(self, rev: int, res, err, seconds: float) -> None:
         self.runs += 1
         self.last_seconds = seconds
+        analysed = self._pending_schemes.pop(rev, None)
         if rev != self.doc.revision:
             self.dropped += 1
             return
+        self._last_scheme = analysed if analysed is not None else self.doc.scheme
         self.result_revision = rev
         if err is not None:
             self.result = None

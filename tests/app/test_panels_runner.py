@@ -196,3 +196,25 @@ def test_title_and_units_are_one_step_each(qtbot, win):
     qtbot.keyClick(edit, Qt.Key_Return)
     assert win.doc.scheme.units == "ft" and win.doc.undo_stack.count() == 2
     assert "ft" in win.units_label.text()
+
+
+def test_title_only_edit_reuses_the_verdict(qtbot):
+    """A change that leaves nodes, members and supports as they were (here the title) publishes
+    the previous classification again instead of re-running the engine; a real edit re-runs it.
+    The verdict itself is the frame count 3m + r - 3j = 9 + 6 - 12 = 3 of a fixed portal
+    (common practice)."""
+    from dataclasses import replace
+
+    nodes = {k: Node(k, x, y) for k, (x, y) in {"A": (0, 0), "B": (0, 3), "C": (4, 3), "D": (4, 0)}.items()}
+    members = {f"c{k}": Member(f"c{k}", a, b) for k, (a, b) in enumerate([("A", "B"), ("B", "C"), ("C", "D")])}
+    supports = {"A": Support("A", "fixed"), "D": Support("D", "fixed")}
+    doc = Document()
+    runner = AnalysisRunner(doc, sync=True)
+    doc.replace_scheme(Scheme(nodes, members, supports, "portal"))
+    runs = runner.runs
+    assert runner.result.self_stress == 3
+    doc.replace_scheme(replace(doc.scheme, title="portal, renamed"))
+    assert runner.runs == runs and runner.is_current() and runner.result.self_stress == 3
+    # one fixed foot left: a bent cantilever, 3m + r - 3j = 9 + 3 - 12 = 0, determinate
+    doc.replace_scheme(doc.scheme.without_support("D"))
+    assert runner.runs == runs + 1 and runner.result.verdict == "determinate"
