@@ -43,7 +43,9 @@ class CanvasView(QGraphicsView):
         self.setViewportUpdateMode(QGraphicsView.FullViewportUpdate)
         self.setCacheMode(QGraphicsView.CacheBackground)
         self.setTransformationAnchor(QGraphicsView.AnchorUnderMouse)
-        self.setResizeAnchor(QGraphicsView.AnchorViewCenter)
+        # the drawing stays put under the cursor when a dock (e.g. the motion strip) appears or
+        # goes while the user is drawing: the view keeps its top-left corner on resize
+        self.setResizeAnchor(QGraphicsView.NoAnchor)
         self.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
         self.setVerticalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
         self.setFrameShape(QFrame.NoFrame)
