@@ -286,3 +286,17 @@ def test_four_hinged_portal_mechanism_is_inside_the_structure(qtbot, win):
     s = win.doc.scheme
     (bx, by), (cx, cy) = (win.scene.mode_item.displaced[n] for n in ("B", "C"))
     assert bx - s.node_xy("B")[0] == pytest.approx(cx - s.node_xy("C")[0], rel=1e-6)
+
+
+def test_drawing_stays_put_when_the_motion_strip_appears(qtbot, tmp_path):
+    """Drawing a lone column makes the scheme a mechanism (no supports: 3 free rigid-body motions,
+    Pellegrino & Calladine 1986), so the motion strip docks at the bottom; a point of the drawing
+    must stay under the same pixel, or the next click lands somewhere else."""
+    from app_helpers import draw_chain, make_window, vp
+
+    w = make_window(qtbot, tmp_path)
+    before = vp(w.view, 0.0, 3.0)
+    draw_chain(qtbot, w, "beam", [(0.0, 0.0), (0.0, 3.0)])
+    qtbot.waitUntil(lambda: w.runner.result is not None and w.runner.result.verdict == "unstable")
+    qtbot.wait(50)
+    assert vp(w.view, 0.0, 3.0) == before
