@@ -205,14 +205,11 @@ def test_block_missing_image_and_not_an_object():
 
 
 def test_scheme_loader_rejects_a_bad_underlay_block():
-    # the loader calls check_underlay; until that hook is in core/io.py the block is only kept verbatim
+    # the loader validates the underlay block: nothing is half-loaded, the message names the field
     bad = json.dumps(_doc(underlay={**GOOD, "opacity": 7}))
-    try:
+    with pytest.raises(SchemeError) as info:
         loads(bad)
-    except SchemeError as exc:
-        assert '"opacity"' in str(exc)
-        return
-    pytest.skip("core/io.py does not call underlay.check_underlay yet")
+    assert '"opacity"' in str(info.value) and "underlay" in str(info.value)
 
 
 # --------------------------------------------------------------------- image file
