@@ -17,13 +17,30 @@ from PySide6.QtCore import QObject, QRunnable, QThreadPool, QTimer, Signal
 from kinestat.core.model import Scheme
 
 
+_recent: list[tuple[Scheme, object]] = []
+_recent_lock = threading.Lock()
+
+
 def classify_scheme(scheme: Scheme):
-    """The engine's verdict, or None for a scheme with no members (nothing to classify)."""
+    """The engine's verdict, or None for a scheme with no members (nothing to classify).
+
+    The last few results are kept by snapshot identity (schemes are immutable), so the views
+    that build on the verdict (redundancy, primary structure, remedies) reuse the one the
+    live runner already computed instead of classifying the same snapshot again.
+    """
     if not scheme.members:
         return None
+    with _recent_lock:
+        for s, res in _recent:
+            if s is scheme:
+                return res
     from kinestat.core.classify import classify
 
-    return classify(scheme)
+    res = classify(scheme)
+    with _recent_lock:
+        _recent.insert(0, (scheme, res))
+        del _recent[4:]
+    return res
 
 
 class _Signals(QObject):

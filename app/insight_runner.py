@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 from kinestat.core.model import Scheme
 
-from .analysis_runner import AnalysisRunner
+from .analysis_runner import AnalysisRunner, classify_scheme
 
 
 @dataclass
@@ -54,10 +54,9 @@ def compute_redundancy(scheme: Scheme) -> RedundancyResult | None:
     every member / restraint removal, for one snapshot."""
     if not scheme.members:
         return None
-    from kinestat.core.classify import classify
     from kinestat.core.redundancy import redundancy, removal_checks, too_big
 
-    c = classify(scheme)
+    c = classify_scheme(scheme)
     why = too_big(c.system)
     if why is not None:
         return RedundancyResult(scheme, c, None, None, f"redundancy not computed: {why}")
@@ -70,10 +69,9 @@ def compute_primary(scheme: Scheme) -> PrimaryResultView | None:
     """A primary structure and alternatives (column-pivoted QR, Businger & Golub 1965)."""
     if not scheme.members:
         return None
-    from kinestat.core.classify import classify
     from kinestat.core.primary import primary_structure
 
-    c = classify(scheme)
+    c = classify_scheme(scheme)
     return PrimaryResultView(scheme, c, primary_structure(scheme, c))
 
 
@@ -81,10 +79,9 @@ def compute_remedies(scheme: Scheme) -> RemedyResultView | None:
     """Verified single changes that remove mechanisms, and a smallest set."""
     if not scheme.members:
         return None
-    from kinestat.core.classify import classify
     from kinestat.core.remedies import remedies
 
-    c = classify(scheme)
+    c = classify_scheme(scheme)
     return RemedyResultView(scheme, c, remedies(scheme, c))
 
 

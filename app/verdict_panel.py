@@ -71,23 +71,21 @@ class VerdictPanel(QScrollArea):
         grid = QGridLayout()
         grid.setHorizontalSpacing(14)
         grid.setVerticalSpacing(1)
-        self.term_labels: dict[str, QLabel] = {}
-        for row, (key, name) in enumerate(_TERM_NAMES):
-            grid.addWidget(QLabel(name), row, 0)
-            v = QLabel("–")
-            v.setAlignment(Qt.AlignRight)
-            v.setMinimumWidth(44)
-            self.term_labels[key] = v
-            grid.addWidget(v, row, 1)
-        self.rank_labels: dict[str, QLabel] = {}
-        for row, (key, name) in enumerate((("mechanisms", "mechanisms m"), ("self_stress", "self-stress s"),
-                                           ("difference", "s \u2212 m"), ("rank", "matrix rank"))):
-            grid.addWidget(QLabel(name), row, 2)
-            v = QLabel("–")
-            v.setAlignment(Qt.AlignRight)
-            v.setMinimumWidth(44)
-            self.rank_labels[key] = v
-            grid.addWidget(v, row, 3)
+        def column(names, col: int) -> dict[str, QLabel]:
+            labels = {}
+            for row, (key, name) in enumerate(names):
+                grid.addWidget(QLabel(name), row, col)
+                v = QLabel("–")
+                v.setAlignment(Qt.AlignRight)
+                v.setMinimumWidth(44)
+                labels[key] = v
+                grid.addWidget(v, row, col + 1)
+            return labels
+
+        self.term_labels: dict[str, QLabel] = column(_TERM_NAMES, 0)
+        self.rank_labels: dict[str, QLabel] = column(
+            (("mechanisms", "mechanisms m"), ("self_stress", "self-stress s"),
+             ("difference", "s \u2212 m"), ("rank", "matrix rank")), 2)
         grid.setColumnStretch(4, 1)
         lay.addLayout(grid)
         self.formula_label = QLabel("")
